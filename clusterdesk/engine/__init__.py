@@ -1,0 +1,1 @@
+"""The mathematics of ClusterDesk: normal mixtures, EM fitting and model criteria (numpy and scipy only)."""

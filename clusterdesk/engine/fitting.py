@@ -1,0 +1,365 @@
+"""Fit one mixture model (k components, one width variant) to a sample.
+
+The steps, in order:
+
+1. standardise the values (mean 0, standard deviation 1) so that tiny and
+   huge scales behave alike;
+2. choose the variance floor: a small fraction of a robust spread, and never
+   below the variance of rounding (h**2 / 12, Sheppard 1898) when the values
+   lie on a grid of step h;
+3. make the starts and run EM on all restarts side by side; when the sample
+   has many distinct values, first on a fine histogram of the values (an
+   exact-enough proxy whose cost does not grow with n), then polish the best
+   distinct solutions on the raw values, so the reported fit is the maximum
+   of the exact likelihood;
+4. apply the collapse rule: a restart that ends with a component at the
+   variance floor, with fewer than ``min_count`` expected observations, or
+   with a spike (a small component far narrower than the widest, see
+   :func:`has_spike`) is a degenerate solution of the unbounded likelihood; the best non-degenerate
+   restart is reported (McLachlan & Peel 2000, Finite Mixture Models, §3.10,
+   from memory: prefer the largest local maximum that is not spurious), and
+   the model is flagged ``collapsed`` only when every restart degenerated.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from . import criteria
+from ..errors import Cancelled
+from .em import EMSettings, run_batch
+from .newton import newton_polish
+from .mixture import Mixture
+from .resolution import detect_grid_step
+from .starts import make_starts
+from .validation import Sample
+
+__all__ = ["FitSettings", "FittedModel", "fit_model"]
+
+
+@dataclass(frozen=True)
+class FitSettings:
+    """How one model is fitted.
+
+    Parameters
+    ----------
+    restarts : int, default 10
+        Starting points per model.
+    em : EMSettings
+        Tolerance, iteration cap and acceleration of the EM phase, which
+        hands over to Newton steps once its gains per cycle are small.
+    tol : float, default 1e-10
+        Final convergence: certified remaining log-likelihood gain per unit of count.
+    newton_steps : int, default 200
+        Cap on Newton steps per restart.
+    screen : int, default 3
+        ``screen * restarts`` starts are made; short EM runs of
+        ``screen_steps`` steps keep the best ``restarts`` for full fits.
+    screen_steps : int, default 30
+    spike_weight, spike_sd_ratio : float, default 0.01 and 0.05
+        A component with less weight than ``spike_weight`` and a standard
+        deviation below ``spike_sd_ratio`` times the widest is a spike
+        (see :func:`has_spike`); a restart ending with one is degenerate.
+    min_sd_fraction : float, default 1e-3
+        Variance floor as a fraction of the sample's robust spread (squared).
+    min_count : float, default 2.0
+        A component expected to hold fewer observations than this has collapsed.
+    bin_above : int, default 4000
+        Samples with more distinct values than this are first fitted on a
+        histogram of ``bins`` bins, then polished on the raw values.
+    bins : int, default 2048
+    polish : int, default 3
+        How many distinct histogram solutions are polished on the raw values.
+    agree_tol : float, default 1e-6
+        Restarts whose log-likelihood is within ``agree_tol * n`` of the best
+        count as having reached it.
+    """
+
+    restarts: int = 10
+    em: EMSettings = EMSettings(tol=1e-6, max_iter=600)
+    tol: float = 1e-10
+    newton_steps: int = 200
+    screen: int = 3
+    screen_steps: int = 30
+    spike_weight: float = 0.01
+    spike_sd_ratio: float = 0.05
+    min_sd_fraction: float = 1e-3
+    min_count: float = 2.0
+    bin_above: int = 4000
+    bins: int = 2048
+    polish: int = 3
+    agree_tol: float = 1e-6
+
+
+@dataclass(frozen=True)
+class FittedModel:
+    """One fitted mixture model and what is known about the fit.
+
+    Attributes
+    ----------
+    mixture : Mixture
+        Weights, means and standard deviations, components sorted by mean.
+    k : int
+    widths : {"separate", "shared"}
+    loglik : float
+        Maximised log-likelihood of the values (densities in the values' units).
+    n : float
+        Sample size (sum of counts).
+    n_params : int
+        Free parameters: 3k-1 (separate widths) or 2k (shared width).
+    bic, aic, icl : float
+        Criteria, lower is better.
+    entropy : float
+        Entropy of the posterior probabilities, ``-sum c_i r_ij ln r_ij``.
+    converged : bool
+        The chosen restart met the convergence rule within the iteration cap.
+    iterations : int
+        EM map evaluations used by the chosen restart (histogram stage included).
+    restarts : int
+        Starts tried.
+    restarts_agreeing : int
+        Starts that reached the chosen log-likelihood (a trust signal).
+    collapsed : bool
+        Every restart ended degenerate; the numbers describe a spurious fit.
+    notes : tuple of str
+        Plain-words remarks on the fit (no convergence, collapse, ...).
+    """
+
+    mixture: Mixture
+    k: int
+    widths: str
+    loglik: float
+    n: float
+    n_params: int
+    bic: float
+    aic: float
+    icl: float
+    entropy: float
+    converged: bool
+    iterations: int
+    restarts: int
+    restarts_agreeing: int
+    collapsed: bool
+    notes: tuple = ()
+
+    @property
+    def min_weight(self) -> float:
+        """Smallest component weight."""
+        return float(self.mixture.weights.min())
+
+
+@dataclass(frozen=True)
+class _Standardised:
+    x: np.ndarray
+    c: np.ndarray
+    n: float
+    center: float
+    scale: float
+    var_floor: float
+
+
+def standardise(sample: Sample, settings: FitSettings) -> _Standardised:
+    """Centre and scale the sample; set the variance floor in standard units."""
+    x, c, n = sample.values, sample.counts, sample.n
+    center = float(np.dot(c, x) / n)
+    scale = float(np.sqrt(np.dot(c, (x - center) ** 2) / n))
+    z = (x - center) / scale
+    spread = min(1.0, _robust_spread(z, c))
+    floor_sd = settings.min_sd_fraction * spread
+    step = detect_grid_step(x)
+    if step is not None:
+        floor_sd = max(floor_sd, step / scale / np.sqrt(12.0))
+    return _Standardised(z, c, n, center, scale, floor_sd**2)
+
+
+def _robust_spread(z, c):
+    cum = np.cumsum(c) / c.sum()
+    q1, q3 = z[np.searchsorted(cum, 0.25)], z[min(np.searchsorted(cum, 0.75), z.size - 1)]
+    iqr = (q3 - q1) / 1.349
+    return float(iqr) if iqr > 0 else 1.0
+
+
+def fit_model(sample: Sample, k: int, widths: str, rng: np.random.Generator,
+              settings: FitSettings = FitSettings(), cancel=None) -> FittedModel:
+    """Fit a k-component mixture with the given width variant.
+
+    Parameters
+    ----------
+    sample : Sample
+        Validated values and counts.
+    k : int
+        Number of components (checked by the caller against the sample).
+    widths : {"separate", "shared"}
+    rng : numpy.random.Generator
+        Used for the starts only.
+    settings : FitSettings
+    cancel : object with ``is_set()``, optional
+
+    Returns
+    -------
+    FittedModel
+    """
+    data = standardise(sample, settings)
+    shared = widths == "shared"
+    if sample.n_distinct > settings.bin_above:
+        result, agreeing, used = _fit_binned_then_polish(data, k, shared, rng, settings, cancel)
+    else:
+        starts = _screened_starts(data.x, data.c, k, shared, rng, data.var_floor, settings, cancel)
+        result = _run(data.x, data.c, data, k, shared, starts, settings, cancel)
+        agreeing, used = None, 0
+    degenerate = _degenerate(result, data.var_floor, settings)
+    best = _best_index(result.loglik, degenerate)
+    if agreeing is None:
+        agreeing = _count_agreeing(result.loglik, best, data.n, settings.agree_tol)
+    restarts = int(result.loglik.size) if used == 0 else used
+    return _finish(data, sample, result, best, k, widths, agreeing, restarts,
+                   collapsed=bool(degenerate[best]))
+
+
+def _screened_starts(x, c, k, shared, rng, var_floor, settings, cancel):
+    """Short EM runs from ``screen`` times as many starts; keep the best ``restarts``.
+
+    The "short runs" strategy of Biernacki, Celeux & Govaert (2003, Comput.
+    Statist. Data Anal. 41:561-575): a few EM cycles tell promising starts from
+    hopeless ones at a fraction of the cost of full runs.
+    """
+    wanted = settings.restarts
+    w, m, v = make_starts(x, c, k, wanted * settings.screen, rng, var_floor)
+    if k == 1 or w.shape[0] <= wanted:
+        return w, m, v
+    if shared:
+        v = np.repeat(np.average(v, axis=1, weights=w)[:, None], k, axis=1)
+    short = run_batch(x, c, w, m, v, var_floor=var_floor, shared=shared, cancel=cancel,
+                      settings=EMSettings(tol=1e-6, max_iter=settings.screen_steps))
+    keep = np.sort(np.argsort(-np.where(np.isfinite(short.loglik), short.loglik, -np.inf),
+                              kind="stable")[:wanted])
+    return short.weights[keep], short.means[keep], short.variances[keep]
+
+
+def _run(x, c, data, k, shared, starts, settings, cancel, var_floor=None):
+    """EM on every start side by side, then certified Newton steps on each."""
+    floor = data.var_floor if var_floor is None else var_floor
+    w0, m0, v0 = starts
+    if shared:
+        v0 = np.repeat(np.average(v0, axis=1, weights=w0)[:, None], k, axis=1)
+    n = float(c.sum())
+    result = run_batch(x, c, w0, m0, v0, n=n, var_floor=floor, shared=shared,
+                       settings=settings.em, cancel=cancel)
+    for i in range(result.loglik.size):
+        if cancel is not None and cancel.is_set():
+            raise Cancelled("The fit was cancelled.")
+        if not np.isfinite(result.loglik[i]) or np.any(result.nk[i] < 1e-6 * n):
+            continue  # a dead component: degenerate, nothing to certify
+        end = newton_polish(x, c, result.weights[i], result.means[i], result.variances[i],
+                            shared=shared, var_floor=floor, tol_abs=settings.tol * n,
+                            max_steps=settings.newton_steps, cancel=cancel)
+        if end.loglik >= result.loglik[i]:
+            result.weights[i], result.means[i], result.variances[i] = (
+                end.weights, end.means, end.variances)
+            result.loglik[i], result.nk[i] = end.loglik, end.nk
+        result.converged[i] = end.converged
+        result.iterations[i] += end.steps
+    return result
+
+
+def _fit_binned_then_polish(data, k, shared, rng, settings, cancel):
+    lo, hi = data.x[0], data.x[-1]
+    edges = np.linspace(lo, hi, settings.bins + 1)
+    counts = np.histogram(data.x, bins=edges, weights=data.c)[0]
+    centres = 0.5 * (edges[1:] + edges[:-1])
+    keep = counts > 0
+    xb, cb = centres[keep], counts[keep]
+    width = edges[1] - edges[0]
+    floor_b = max(data.var_floor, width * width)
+    starts = _screened_starts(xb, cb, k, shared, rng, floor_b, settings, cancel)
+    binned = _run(xb, cb, data, k, shared, starts, settings, cancel, var_floor=floor_b)
+    degenerate = _degenerate(binned, floor_b, settings)
+    best = _best_index(binned.loglik, degenerate)
+    agreeing = _count_agreeing(binned.loglik, best, data.n, settings.agree_tol)
+    picks = _distinct_candidates(binned.loglik, degenerate, data.n, settings)
+    polished = _run(data.x, data.c, data, k, shared,
+                    (binned.weights[picks], binned.means[picks], binned.variances[picks]),
+                    settings, cancel)
+    polished.iterations += binned.iterations[picks]
+    return polished, agreeing, int(binned.loglik.size)
+
+
+def _distinct_candidates(loglik, degenerate, n, settings):
+    order = np.lexsort((-loglik, degenerate))
+    picks = []
+    for i in order:
+        if not np.isfinite(loglik[i]):
+            continue
+        if all(abs(loglik[i] - loglik[j]) > settings.agree_tol * n for j in picks):
+            picks.append(int(i))
+        if len(picks) == settings.polish:
+            break
+    return np.array(picks or [int(order[0])])
+
+
+def _degenerate(result, var_floor, settings):
+    """Restarts that ended on a spurious maximum of the unbounded likelihood."""
+    at_floor = np.any(result.variances <= var_floor * (1.0 + 1e-6), axis=1)
+    too_small = np.any(result.nk < settings.min_count, axis=1)
+    return at_floor | too_small | has_spike(result.weights, np.sqrt(result.variances), settings) \
+        | ~np.isfinite(result.loglik)
+
+
+def has_spike(weights, sds, settings: "FitSettings"):
+    """Whether a fit has a spike: a small component much narrower than the widest.
+
+    A component holding less than ``settings.spike_weight`` of the sample with
+    a standard deviation under ``settings.spike_sd_ratio`` times the largest
+    one is "a component with a relatively small mixing proportion and a
+    relatively small variance, fitting a small number of points lying close
+    together" (the description of spurious maximisers in McLachlan & Peel
+    2000, §3.10, quoted from memory).
+
+    Parameters
+    ----------
+    weights, sds : ndarray, shape (..., k)
+
+    Returns
+    -------
+    ndarray of bool, shape (...)
+    """
+    widest = sds.max(axis=-1, keepdims=True)
+    spike = (weights < settings.spike_weight) & (sds < settings.spike_sd_ratio * widest)
+    return np.any(spike, axis=-1)
+
+
+def _best_index(loglik, degenerate):
+    candidates = np.where(degenerate, -np.inf, loglik)
+    if np.isfinite(candidates).any():
+        return int(np.argmax(candidates))
+    return int(np.argmax(np.where(np.isfinite(loglik), loglik, -np.inf)))
+
+
+def _count_agreeing(loglik, best, n, tol):
+    return int(np.sum(np.abs(loglik - loglik[best]) <= tol * n + 1e-9))
+
+
+def _finish(data, sample, result, best, k, widths, agreeing, restarts, collapsed):
+    scale = data.scale
+    mixture = Mixture(weights=result.weights[best],
+                      means=data.center + scale * result.means[best],
+                      sds=scale * np.sqrt(result.variances[best]))
+    loglik = float(result.loglik[best]) - data.n * np.log(scale)
+    entropy = criteria.posterior_entropy(mixture.posterior(sample.values), sample.counts)
+    n_params = criteria.n_parameters(k, widths)
+    bic = criteria.bic(loglik, n_params, data.n)
+    notes = []
+    converged = bool(result.converged[best])
+    if not converged:
+        notes.append(f"EM stopped at the iteration cap ({int(result.iterations[best])} steps) "
+                     "before converging; treat this model with caution or raise the cap.")
+    if collapsed:
+        notes.append("Every restart ended with a component squeezed onto a few values "
+                     "(a spurious maximum); this model is not a credible description.")
+    return FittedModel(mixture=mixture, k=k, widths=widths, loglik=loglik, n=data.n,
+                       n_params=n_params, bic=bic, aic=criteria.aic(loglik, n_params),
+                       icl=criteria.icl(bic, entropy), entropy=entropy, converged=converged,
+                       iterations=int(result.iterations[best]), restarts=restarts,
+                       restarts_agreeing=agreeing, collapsed=collapsed, notes=tuple(notes))

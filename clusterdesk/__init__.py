@@ -12,11 +12,12 @@ The public API is Qt-free; ``import clusterdesk`` never loads PySide6.
 
 from __future__ import annotations
 
-from .api import fit, scan
+from .api import bootstrap, fit, likelihood_ratio_test, scan
 from .engine.mixture import Mixture
 from .errors import Cancelled, ClusterDeskWarning, FileFormatError, InputError
+from .io import read_measurements
 
-__version__ = "0.1.0"
+from ._version import __version__  # noqa: E402
 
 __all__ = [
     "Cancelled",
@@ -25,6 +26,9 @@ __all__ = [
     "InputError",
     "Mixture",
     "__version__",
+    "bootstrap",
     "fit",
+    "likelihood_ratio_test",
+    "read_measurements",
     "scan",
 ]

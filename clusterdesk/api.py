@@ -1,4 +1,4 @@
-"""The Python API: scan a range of models, or fit one.
+"""The Python API: scan a range of models, fit one, bootstrap it, test k against k+1.
 
 These are thin, documented doors into :mod:`clusterdesk.engine`; the analysis
 object, the command line and the window all end up here.
@@ -6,12 +6,15 @@ object, the command line and the window all end up here.
 
 from __future__ import annotations
 
+from .engine.bootstrap import BootstrapResult, bootstrap_model
 from .engine.fitting import FitSettings, FittedModel, fit_model
+from .engine.lrtest import LikelihoodRatioResult
+from .engine.lrtest import likelihood_ratio_test as _likelihood_ratio_test
 from .engine.scan import ScanResult, model_rng, scan_models
 from .engine.validation import check_component_range, check_widths, prepare_sample
 from .errors import InputError
 
-__all__ = ["scan", "fit"]
+__all__ = ["scan", "fit", "bootstrap", "likelihood_ratio_test"]
 
 
 def scan(values, *, counts=None, kmin=1, kmax=6, widths="separate", restarts=10, seed=0,
@@ -81,3 +84,72 @@ def fit(values, k, *, counts=None, widths="separate", restarts=10, seed=0, cance
         raise InputError(f"restarts must be a whole number >= 1, got {restarts!r}.")
     return fit_model(sample, k, variants[0], model_rng(seed, k, variants[0]),
                      FitSettings(restarts=restarts), cancel)
+
+
+def bootstrap(values, model, *, counts=None, replicates=200, method="resample", level=0.95, seed=0,
+              progress=None, cancel=None, workers=None) -> BootstrapResult:
+    """Bootstrap intervals for the weights, means, standard deviations and cut points of a fit.
+
+    Parameters
+    ----------
+    values : array_like, shape (n,)
+        The values the model was fitted to.
+    model : FittedModel
+        From :func:`fit` or :func:`scan`; its number of components and width
+        variant are refitted to every replicate, starting from the fit.
+    counts : array_like, shape (n,), optional
+        The counts the model was fitted with.
+    replicates : int, default 200
+        Bootstrap replicates (10 to 100000).
+    method : {"resample", "parametric"}, default "resample"
+        Resample the values with replacement, or simulate from the fitted mixture.
+    level : float, default 0.95
+        Confidence level of the percentile intervals.
+    seed : int, default 0
+        Same seed, same result, bit for bit, whatever the number of workers.
+    progress : callable(done, total), optional
+        Called after each batch of replicates.
+    cancel : object with ``is_set()``, optional
+        When set, raises :class:`~clusterdesk.errors.Cancelled`.
+    workers : int, optional
+        Worker threads; default the cores available, at most 2.
+
+    Returns
+    -------
+    BootstrapResult
+        Replicate arrays, ``*_interval`` (k, 2), ``*_se`` (k,), the counts of
+        failed and collapsed replicates, and notes (which path was used).
+    """
+    sample = prepare_sample(values, counts)
+    return bootstrap_model(sample, model, replicates=replicates, method=method, level=level,
+                           seed=seed, workers=workers, progress=progress, cancel=cancel)
+
+
+def likelihood_ratio_test(values, k, *, counts=None, widths="separate", replicates=99, restarts=5,
+                          seed=0, progress=None, cancel=None, workers=None) -> LikelihoodRatioResult:
+    """Test ``k`` components against ``k + 1`` by a parametric bootstrap of the likelihood ratio.
+
+    Parameters
+    ----------
+    values : array_like, shape (n,)
+    k : int
+        Components under the null hypothesis.
+    counts : array_like, shape (n,), optional
+    widths : {"separate", "shared"}, default "separate"
+    replicates : int, default 99
+        Samples simulated from the k-component fit (at least 19).
+    restarts : int, default 5
+        Restarts of every fit (observed and simulated).
+    seed : int, default 0
+    progress, cancel, workers
+        As for :func:`bootstrap`.
+
+    Returns
+    -------
+    LikelihoodRatioResult
+        ``.statistic``, ``.p_value`` = (1 + #{simulated >= statistic}) / (1 + replicates),
+        ``.simulated`` statistics, the two fits.
+    """
+    return _likelihood_ratio_test(values, k, counts=counts, widths=widths, replicates=replicates,
+                                  restarts=restarts, seed=seed, workers=workers,
+                                  progress=progress, cancel=cancel)

@@ -26,7 +26,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import Cancelled
-from .validation import prepare_sample
+from .validation import prepare_sample, weighted_mean_sd
 
 __all__ = ["EMSettings", "BatchResult", "run_batch", "run_em", "EMTrace", "e_step"]
 
@@ -102,14 +102,20 @@ def e_step(x, c, logw, mu, var) -> Stats:
 
     Parameters
     ----------
-    x, c : ndarray, shape (n,)
-        Values and their counts.
+    x : ndarray, shape (n,) or (r, n)
+        Values: one set shared by every row, or one set per row (e.g. simulated
+        samples of a parametric bootstrap).
+    c : ndarray, shape (n,) or (r, n)
+        Counts of the values: shared, or one count vector per row (e.g.
+        multinomial resampling counts over the same values).  Zero counts are
+        allowed.
     logw, mu, var : ndarray, shape (r, k)
-        Log weights, means and variances of each restart.
+        Log weights, means and variances of each row (restart or replicate).
 
     Returns
     -------
     Stats
+        Each row's statistics use that row's values and counts only.
     """
     r, k = mu.shape
     const = logw - 0.5 * (_LOG_2PI + np.log(var))
@@ -119,17 +125,19 @@ def e_step(x, c, logw, mu, var) -> Stats:
     sd = np.zeros((r, k))
     sdd = np.zeros((r, k))
     step = max(256, _CHUNK_ELEMENTS // max(1, r * k))
-    for start in range(0, x.size, step):
-        xs = x[start:start + step]
-        cs = c[start:start + step]
-        d = xs[None, None, :] - mu[:, :, None]
+    for start in range(0, x.shape[-1], step):
+        xs = x[..., start:start + step]
+        cs = c[..., start:start + step]
+        # (1, n) or (r, 1, n) against (r, k, 1): shape (r, k, chunk) either way
+        d = xs[..., None, :] - mu[:, :, None]
         dd = d * d
         lj = const[:, :, None] - half_prec[:, :, None] * dd
         top = lj.max(axis=1)
         np.subtract(lj, top[:, None, :], out=lj)
         np.exp(lj, out=lj)
         total = lj.sum(axis=1)
-        loglik += (top + np.log(total)) @ cs
+        row_loglik = top + np.log(total)
+        loglik += row_loglik @ cs if cs.ndim == 1 else np.einsum("rn,rn->r", row_loglik, cs)
         np.multiply(lj, (cs / total)[:, None, :], out=lj)
         nk += lj.sum(axis=2)
         sd += np.einsum("rkn,rkn->rk", lj, d)
@@ -142,7 +150,8 @@ def m_step(stats: Stats, mu, var, n: float, var_floor: float, shared: bool):
 
     Components whose expected count has fallen below ``1e-10 * n`` keep their
     mean and variance (their weight is then negligible); the fitting layer
-    reports them as collapsed.
+    reports them as collapsed.  ``n`` is the total count: a float, or an
+    array of shape (r, 1) when the rows have their own totals.
 
     Returns
     -------
@@ -181,16 +190,18 @@ def _logsumexp_rows(a):
 
 
 class _EMMap:
-    """The EM map theta -> M(E(theta)), counting evaluations per restart."""
+    """The EM map theta -> M(E(theta)) on the data of the given rows."""
 
     def __init__(self, x, c, k, n, var_floor, shared):
         self.x, self.c, self.k, self.n = x, c, k, n
         self.var_floor, self.shared = var_floor, shared
 
-    def __call__(self, theta):
+    def __call__(self, theta, rows):
+        x = self.x[rows] if self.x.ndim == 2 else self.x
+        c = self.c[rows] if self.c.ndim == 2 else self.c
         logw, mu, var = _unpack(theta, self.k, self.var_floor)
-        stats = e_step(self.x, self.c, logw, mu, var)
-        new = m_step(stats, mu, var, self.n, self.var_floor, self.shared)
+        stats = e_step(x, c, logw, mu, var)
+        new = m_step(stats, mu, var, self.n[rows][:, None], self.var_floor, self.shared)
         return stats.loglik, _pack(*new), stats.nk
 
 
@@ -230,12 +241,16 @@ def run_batch(x, c, weights, means, variances, *, n=None, var_floor=0.0, shared=
 
     Parameters
     ----------
-    x, c : ndarray, shape (m,)
-        Values and positive counts.
+    x : ndarray, shape (m,) or (r, m)
+        Values, shared by every row or one set per row.
+    c : ndarray, shape (m,) or (r, m)
+        Counts (>= 0, each row with a positive total), shared or one vector per
+        row: a batch of bootstrap replicates is a batch of count vectors on the
+        same values.
     weights, means, variances : ndarray, shape (r, k)
-        Starting parameters, one row per restart.
-    n : float, optional
-        Total count; defaults to ``c.sum()``.
+        Starting parameters, one row per restart (or replicate).
+    n : float or ndarray of shape (r,), optional
+        Total count of each row; defaults to ``c.sum(axis=-1)``.
     var_floor : float, default 0.0
         Smallest variance a component may take.
     shared : bool, default False
@@ -250,8 +265,8 @@ def run_batch(x, c, weights, means, variances, *, n=None, var_floor=0.0, shared=
     -------
     BatchResult
     """
-    n = float(c.sum()) if n is None else float(n)
     r, k = means.shape
+    n = np.broadcast_to(np.asarray(c.sum(axis=-1) if n is None else n, dtype=np.float64), (r,))
     em_map = _EMMap(x, c, k, n, var_floor, shared)
     theta = _pack(np.log(np.maximum(weights, _TINY_WEIGHT)), means,
                   np.maximum(variances, max(var_floor, 1e-300)))
@@ -265,11 +280,11 @@ def run_batch(x, c, weights, means, variances, *, n=None, var_floor=0.0, shared=
         if cancel is not None and cancel.is_set():
             raise Cancelled("The fit was cancelled.")
         th0 = theta[active]
-        ll0, th1, nk0 = em_map(th0)
+        ll0, th1, nk0 = em_map(th0, active)
         state.iterations[active] += 1
         nk[active] = nk0
         gain = ll0 - state.loglik[active]
-        done = _has_converged(gain, state.last_gain[active], tol_abs)
+        done = _has_converged(gain, state.last_gain[active], tol_abs[active])
         state.last_gain[active] = gain
         state.loglik[active] = ll0
         if traces is not None:
@@ -296,7 +311,7 @@ def run_batch(x, c, weights, means, variances, *, n=None, var_floor=0.0, shared=
 
 def _squarem_cycle(em_map, th0, th1, step_max, active, state):
     """One SQUAREM S3 cycle; returns the next cycle's starting parameters."""
-    ll1, th2, _ = em_map(th1)
+    ll1, th2, _ = em_map(th1, active)
     r_vec = th1 - th0
     v_vec = th2 - 2.0 * th1 + th0
     norm_r = np.sqrt((r_vec * r_vec).sum(axis=1))
@@ -306,7 +321,7 @@ def _squarem_cycle(em_map, th0, th1, step_max, active, state):
     limit = step_max[active]
     alpha = np.clip(alpha, -limit, -1.0)
     th_jump = th0 - 2.0 * alpha[:, None] * r_vec + (alpha * alpha)[:, None] * v_vec
-    ll_jump, th_next, _ = em_map(th_jump)
+    ll_jump, th_next, _ = em_map(th_jump, active)
     state.iterations[active] += 2
     good = np.isfinite(ll_jump) & (ll_jump >= ll1) & np.all(np.isfinite(th_next), axis=1)
     # Varadhan & Roland's step-length rule: widen after a full-length success,
@@ -360,7 +375,7 @@ def run_em(values, k, *, counts=None, widths="separate", restarts=1, seed=0,
     sample = prepare_sample(values, counts)
     (variant,) = check_widths(widths)
     x, c = sample.values, sample.counts
-    spread = float(np.sqrt(np.dot(c, (x - np.dot(c, x) / sample.n) ** 2) / sample.n))
+    spread = weighted_mean_sd(x, c)[1]
     floor = (1e-6 * spread) ** 2
     rng = np.random.default_rng(seed)
     w0, m0, v0 = make_starts(x, c, k, restarts, rng, floor)

@@ -34,9 +34,9 @@ from .newton import newton_polish
 from .mixture import Mixture
 from .resolution import detect_grid_step
 from .starts import make_starts
-from .validation import Sample
+from .validation import Sample, weighted_mean_sd
 
-__all__ = ["FitSettings", "FittedModel", "fit_model"]
+__all__ = ["FitSettings", "FittedModel", "fit_model", "degenerate_fits", "has_spike", "standardise"]
 
 
 @dataclass(frozen=True)
@@ -163,8 +163,7 @@ class _Standardised:
 def standardise(sample: Sample, settings: FitSettings) -> _Standardised:
     """Centre and scale the sample; set the variance floor in standard units."""
     x, c, n = sample.values, sample.counts, sample.n
-    center = float(np.dot(c, x) / n)
-    scale = float(np.sqrt(np.dot(c, (x - center) ** 2) / n))
+    center, scale = weighted_mean_sd(x, c)
     z = (x - center) / scale
     spread = min(1.0, _robust_spread(z, c))
     floor_sd = settings.min_sd_fraction * spread
@@ -209,7 +208,7 @@ def fit_model(sample: Sample, k: int, widths: str, rng: np.random.Generator,
         starts = _screened_starts(data.x, data.c, k, shared, rng, data.var_floor, settings, cancel)
         result = _run(data.x, data.c, data, k, shared, starts, settings, cancel)
         agreeing, used = None, 0
-    degenerate = _degenerate(result, data.var_floor, settings)
+    degenerate = degenerate_fits(result, data.var_floor, settings)
     best = _best_index(result.loglik, degenerate)
     if agreeing is None:
         agreeing = _count_agreeing(result.loglik, best, data.n, settings.agree_tol)
@@ -275,7 +274,7 @@ def _fit_binned_then_polish(data, k, shared, rng, settings, cancel):
     floor_b = max(data.var_floor, width * width)
     starts = _screened_starts(xb, cb, k, shared, rng, floor_b, settings, cancel)
     binned = _run(xb, cb, data, k, shared, starts, settings, cancel, var_floor=floor_b)
-    degenerate = _degenerate(binned, floor_b, settings)
+    degenerate = degenerate_fits(binned, floor_b, settings)
     best = _best_index(binned.loglik, degenerate)
     agreeing = _count_agreeing(binned.loglik, best, data.n, settings.agree_tol)
     picks = _distinct_candidates(binned.loglik, degenerate, data.n, settings)
@@ -299,8 +298,25 @@ def _distinct_candidates(loglik, degenerate, n, settings):
     return np.array(picks or [int(order[0])])
 
 
-def _degenerate(result, var_floor, settings):
-    """Restarts that ended on a spurious maximum of the unbounded likelihood."""
+def degenerate_fits(result, var_floor, settings):
+    """Rows (restarts or bootstrap replicates) that ended on a spurious maximum.
+
+    The collapse rule: a component at the variance floor, with fewer than
+    ``settings.min_count`` expected observations, a spike (:func:`has_spike`),
+    or a log-likelihood that is not finite.
+
+    Parameters
+    ----------
+    result : BatchResult-like
+        With ``weights``, ``variances``, ``nk`` of shape (r, k) and ``loglik`` (r,).
+    var_floor : float
+        The variance floor the rows were fitted with.
+    settings : FitSettings
+
+    Returns
+    -------
+    ndarray of bool, shape (r,)
+    """
     at_floor = np.any(result.variances <= var_floor * (1.0 + 1e-6), axis=1)
     too_small = np.any(result.nk < settings.min_count, axis=1)
     return at_floor | too_small | has_spike(result.weights, np.sqrt(result.variances), settings) \

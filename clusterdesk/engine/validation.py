@@ -12,7 +12,7 @@ import numpy as np
 
 from ..errors import InputError
 
-__all__ = ["Sample", "prepare_sample", "check_component_range", "check_widths", "WIDTHS_CHOICES"]
+__all__ = ["Sample", "prepare_sample", "weighted_mean_sd", "check_component_range", "check_widths", "WIDTHS_CHOICES"]
 
 WIDTHS_CHOICES = ("separate", "shared")
 
@@ -166,3 +166,30 @@ def max_components(sample: Sample) -> int:
     by_distinct = sample.n_distinct // 2
     by_params = int((sample.n - 1) // 3) + 1  # 3k - 1 parameters < n
     return max(1, min(by_distinct, by_params))
+
+
+def weighted_mean_sd(x, c) -> tuple[float, float]:
+    """Weighted mean and (population) standard deviation without over- or underflow.
+
+    Values are scaled by their largest magnitude before squaring, so samples
+    around 1e-200 or 1e150 give the right spread.
+
+    Parameters
+    ----------
+    x, c : ndarray, shape (n,)
+        Values and positive counts.
+
+    Returns
+    -------
+    mean, sd : float
+    """
+    n = float(c.sum())
+    big = float(np.max(np.abs(x)))
+    if big == 0.0:
+        return 0.0, 0.0
+    mean = big * float(np.dot(c, x / big) / n)
+    d = x - mean
+    reach = float(np.max(np.abs(d)))
+    if reach == 0.0:
+        return mean, 0.0
+    return mean, reach * float(np.sqrt(np.dot(c, (d / reach) ** 2) / n))

@@ -13,7 +13,7 @@ seeded from the drawn integers.
 from __future__ import annotations
 
 import numpy as np
-from hypothesis import HealthCheck, event, given, settings
+from hypothesis import HealthCheck, event, example, given, settings
 from hypothesis import strategies as st
 
 import clusterdesk
@@ -75,6 +75,11 @@ def assert_valid_model(model, n_total):
 
 @PROPERTY_SETTINGS
 @given(values=any_values, kmax=st.integers(1, 3), widths=st.sampled_from(["separate", "shared", "both"]))
+# Spreads far below any physical scale but still normal floats (no warnings may escape).
+@example(values=np.array([0.0, 1e-200, 2e-200, 3e-200]), kmax=1, widths="separate")
+@example(values=np.array([0.0, 1e-300, 2e-300, 3e-300, 5e-300]), kmax=2, widths="both")
+# Huge offset, ordinary spread: values on a coarse floating-point grid.
+@example(values=1e12 + np.arange(40.0) % 7, kmax=2, widths="separate")
 def test_scan_gives_valid_fit_or_input_error(values, kmax, widths):
     try:
         result = clusterdesk.scan(values, kmin=1, kmax=kmax, widths=widths, restarts=3, seed=0)

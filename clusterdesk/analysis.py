@@ -1,0 +1,370 @@
+"""One analysis: where the values came from, how they were cleaned, the settings,
+the scan, the chosen model and its intervals.
+
+The command line, the report writer and the window all drive this object; none
+of them recomputes what it holds. Long steps are split in two so that a front
+end can run the computation on a worker thread and apply the result on its own
+thread: ``compute_scan`` is pure (it changes nothing) and ``apply_scan`` swaps
+the result in at once, so a cancelled or failed run leaves the previous
+results in place.
+"""
+
+from __future__ import annotations
+
+import json
+from dataclasses import asdict, dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from ._version import __version__
+from .api import bootstrap as run_bootstrap
+from .api import scan as run_scan
+from .engine.fitcheck import goodness_of_fit
+from .engine.fitting import FittedModel
+from .engine.scan import ScanResult
+from .atomic import write_text_atomic
+from .errors import FileFormatError, InputError
+from .io import Measurements, read_measurements
+
+__all__ = ["DataChoice", "ScanSettings", "Analysis", "ANALYSIS_SUFFIX", "FORMAT_VERSION"]
+
+#: File name ending of saved analyses (JSON inside).
+ANALYSIS_SUFFIX = ".cdesk"
+#: Version of the saved-analysis layout; bumped when the layout changes.
+FORMAT_VERSION = 1
+
+
+@dataclass(frozen=True)
+class DataChoice:
+    """Which values to analyse and how to clean them.
+
+    Parameters
+    ----------
+    column, counts, sheet : str or int or None
+        Value column, optional count column, and sheet (workbooks), by name
+        or 0-based position. None: the reader's default.
+    low, high : float or None
+        Inclusive range limits on the original scale.
+    scale : {"linear", "ln", "log10"}, default "linear"
+        The scale the mixture is fitted on.
+    """
+
+    column: str | int | None = None
+    counts: str | int | None = None
+    sheet: str | int | None = None
+    low: float | None = None
+    high: float | None = None
+    scale: str = "linear"
+
+
+@dataclass(frozen=True)
+class ScanSettings:
+    """Settings of the scan over component counts.
+
+    Parameters
+    ----------
+    kmin, kmax : int, default 1 and 6
+    widths : {"separate", "shared", "both"}, default "both"
+    restarts : int, default 10
+    seed : int, default 0
+    """
+
+    kmin: int = 1
+    kmax: int = 6
+    widths: str = "both"
+    restarts: int = 10
+    seed: int = 0
+
+
+@dataclass
+class Analysis:
+    """Data, settings and results of one analysis.
+
+    Attributes
+    ----------
+    measurements : Measurements or None
+        The cleaned column (None before a source is loaded).
+    source_path : str or None
+        The file the values came from (None for pasted text or arrays).
+    data : DataChoice
+    settings : ScanSettings
+    scan : ScanResult or None
+    choice : tuple (k, widths) or None
+        The user's model; None means "the best by BIC".
+    interval_results : dict of (k, widths) to BootstrapResult
+        Bootstrap intervals estimated for the scan's models; see :attr:`intervals`.
+    """
+
+    measurements: Measurements | None = None
+    source_path: str | None = None
+    data: DataChoice = field(default_factory=DataChoice)
+    settings: ScanSettings = field(default_factory=ScanSettings)
+    scan: ScanResult | None = None
+    choice: tuple | None = None
+    interval_results: dict = field(default_factory=dict, repr=False)
+
+    # ----------------------------------------------------------------- data in
+    @classmethod
+    def from_file(cls, path, data: DataChoice = DataChoice(),
+                  settings: ScanSettings = ScanSettings()) -> "Analysis":
+        """Read and clean one column of a file; see :func:`clusterdesk.io.read_measurements`."""
+        analysis = cls(data=data, settings=settings)
+        analysis.load_file(path, data)
+        return analysis
+
+    @classmethod
+    def from_text(cls, text: str, data: DataChoice = DataChoice(),
+                  settings: ScanSettings = ScanSettings()) -> "Analysis":
+        """Read and clean pasted text (e.g. a column copied from a spreadsheet)."""
+        analysis = cls(data=data, settings=settings)
+        analysis.measurements = _read(None, text, data)
+        return analysis
+
+    def load_file(self, path, data: DataChoice | None = None) -> None:
+        """(Re)read the source with new cleaning choices; results are cleared."""
+        data = self.data if data is None else data
+        measurements = _read(path, None, data)
+        self.measurements, self.source_path, self.data = measurements, str(Path(path).resolve()), data
+        self.scan, self.choice = None, None
+        self.interval_results = {}
+
+    def recleaned(self, data: DataChoice) -> None:
+        """Apply new cleaning choices to the same source (re-reads the file)."""
+        if self.source_path is None:
+            raise InputError("This analysis has no source file to re-read; paste the values again.")
+        self.load_file(self.source_path, data)
+
+    # ------------------------------------------------------------------- scan
+    def fit_input(self):
+        """The values (on the analysis scale) and counts handed to the engine."""
+        m = self._need_measurements()
+        return m.fit_values, m.counts
+
+    def compute_scan(self, settings: ScanSettings | None = None, progress=None, cancel=None) -> ScanResult:
+        """Run the scan and return it, without changing the analysis."""
+        s = self.settings if settings is None else settings
+        values, counts = self.fit_input()
+        return run_scan(values, counts=counts, kmin=s.kmin, kmax=s.kmax, widths=s.widths, restarts=s.restarts, seed=s.seed,
+                        progress=progress, cancel=cancel)
+
+    def apply_scan(self, result: ScanResult, settings: ScanSettings | None = None) -> None:
+        """Make a computed scan the analysis's scan; the choice returns to the best model."""
+        if settings is not None:
+            self.settings = settings
+        self.scan, self.choice = result, None
+        self.interval_results = {}
+
+    def run_scan(self, settings: ScanSettings | None = None, progress=None, cancel=None) -> ScanResult:
+        """Compute and apply a scan in one call (for scripts and the command line)."""
+        result = self.compute_scan(settings, progress, cancel)
+        self.apply_scan(result, settings)
+        return result
+
+    # ----------------------------------------------------------------- choice
+    def choose(self, k: int, widths: str = "separate") -> FittedModel:
+        """Make the (k, widths) model the chosen one; it drives tables, plots and exports."""
+        model = self._need_scan().model(k, widths)
+        self.choice = (model.k, model.widths)
+        return model
+
+    @property
+    def chosen(self) -> FittedModel:
+        """The chosen model (the best by BIC unless the user chose another)."""
+        scan = self._need_scan()
+        return scan.best if self.choice is None else scan.model(*self.choice)
+
+    # -------------------------------------------------------------- intervals
+    def compute_intervals(self, *, replicates: int = 200, method: str = "resample", level: float = 0.95,
+                          seed: int | None = None, progress=None, cancel=None):
+        """Bootstrap the chosen model and return the result, without changing the analysis.
+
+        Parameters
+        ----------
+        replicates : int, default 200
+        method : {"resample", "parametric"}, default "resample"
+        level : float, default 0.95
+        seed : int, optional
+            Default: the scan's seed.
+        progress, cancel
+            As for :func:`clusterdesk.bootstrap`.
+
+        Returns
+        -------
+        BootstrapResult
+        """
+        values, counts = self.fit_input()
+        seed = self.settings.seed if seed is None else seed
+        return run_bootstrap(values, self.chosen, counts=counts, replicates=replicates, method=method,
+                             level=level, seed=seed, progress=progress, cancel=cancel)
+
+    def apply_intervals(self, result) -> None:
+        """Keep computed intervals for the model they belong to (the chosen one when computed)."""
+        for model in self._need_scan().models:
+            if model.mixture == result.reference and model.widths == result.widths:
+                self.interval_results[(model.k, model.widths)] = result
+                return
+        raise InputError("These intervals belong to a model that is not in this analysis's scan; "
+                         "estimate them again.")
+
+    @property
+    def intervals(self):
+        """Bootstrap intervals of the chosen model, or None when not estimated."""
+        if self.scan is None:
+            return None
+        chosen = self.chosen
+        return self.interval_results.get((chosen.k, chosen.widths))
+
+    # -------------------------------------------------------------- fit check
+    def fit_check(self, model: FittedModel | None = None):
+        """Q-Q points, Kolmogorov-Smirnov distance and verdict for a model (default: the chosen one).
+
+        Returns
+        -------
+        FitCheck
+            See :func:`clusterdesk.engine.fitcheck.goodness_of_fit`.
+        """
+        values, counts = self.fit_input()
+        model = self.chosen if model is None else model
+        return goodness_of_fit(model.mixture, values, counts)
+
+    # ------------------------------------------------------------ assignments
+    def assignments(self):
+        """Component and posterior probabilities for every input row.
+
+        Returns
+        -------
+        dict
+            ``line`` (n_rows,), ``value`` (n_rows,) on the original scale,
+            ``kept`` (bool), ``reason`` (words), ``component`` (1-based, 0 when
+            excluded), ``max_posterior`` (NaN when excluded) and ``posterior``
+            (n_rows, k), NaN rows for excluded rows.
+        """
+        m = self._need_measurements()
+        model = self.chosen
+        rows = m.rows
+        post_kept = model.mixture.posterior(m.fit_values)
+        k = model.k
+        posterior = np.full((len(rows), k), np.nan)
+        kept = rows.kept
+        posterior[kept] = post_kept[rows.position[kept]]
+        component = np.zeros(len(rows), dtype=np.int64)
+        component[kept] = np.argmax(posterior[kept], axis=1) + 1
+        max_post = np.full(len(rows), np.nan)
+        max_post[kept] = posterior[kept].max(axis=1)
+        words = np.array([rows.reason_words(code) for code in range(int(rows.reason.max(initial=0)) + 1)],
+                         dtype=object)
+        return {"line": rows.line, "value": rows.value, "kept": kept,
+                "reason": words[rows.reason], "component": component,
+                "max_posterior": max_post, "posterior": posterior}
+
+    # ------------------------------------------------------------ save / load
+    def to_dict(self) -> dict:
+        """Everything needed to reproduce this analysis, as plain JSON types."""
+        m = self._need_measurements()
+        return {
+            "format": "clusterdesk-analysis",
+            "format_version": FORMAT_VERSION,
+            "software_version": __version__,
+            "source": {"path": self.source_path, "sha256": m.sha256, "label": m.source},
+            "data": asdict(self.data),
+            "settings": asdict(self.settings),
+            "choice": list(self.choice) if self.choice else None,
+        }
+
+    def save(self, path) -> Path:
+        """Write the analysis as JSON (atomically); the suffix is added when missing."""
+        path = Path(path)
+        if not path.name.endswith(ANALYSIS_SUFFIX):
+            path = path.with_name(path.name + ANALYSIS_SUFFIX)
+        write_text_atomic(path, json.dumps(self.to_dict(), indent=2) + "\n")
+        return path
+
+    @classmethod
+    def open(cls, path, *, rescan: bool = True, progress=None, cancel=None) -> "OpenedAnalysis":
+        """Reopen a saved analysis: re-read its source, redo its scan, restore the choice.
+
+        The scan is deterministic for a given seed, so the numbers are the same
+        as when the analysis was saved, provided the source is unchanged; a
+        changed source is read all the same and reported in the result.
+
+        Raises
+        ------
+        FileFormatError
+            The file is not a saved analysis (truncated, malformed, or from a
+            newer version of ClusterDesk).
+        InputError
+            Its source file is missing.
+        """
+        path = Path(path)
+        try:
+            raw = json.loads(path.read_text(encoding="utf-8"))
+        except FileNotFoundError:
+            raise InputError(f"There is no analysis file {path}; check the name and folder.") from None
+        except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
+            raise FileFormatError(f"{path.name} is not a readable ClusterDesk analysis ({exc}); "
+                                  "it may be truncated or not an analysis file.") from None
+        saved = _parse_saved(raw, path)
+        source = saved["source"]["path"]
+        if not source or not Path(source).is_file():
+            raise InputError(f"The source file of {path.name} ({source}) is missing; "
+                             "put it back in place or open the data file itself.")
+        analysis = cls.from_file(source, DataChoice(**saved["data"]), ScanSettings(**saved["settings"]))
+        changed = analysis.measurements.sha256 != saved["source"]["sha256"]
+        if rescan:
+            analysis.run_scan(progress=progress, cancel=cancel)
+            if saved["choice"]:
+                analysis.choose(int(saved["choice"][0]), str(saved["choice"][1]))
+        return OpenedAnalysis(analysis=analysis, source_changed=changed)
+
+    # -------------------------------------------------------------- internals
+    def _need_measurements(self) -> Measurements:
+        if self.measurements is None:
+            raise InputError("No measurements are loaded yet; open a file or paste a column first.")
+        return self.measurements
+
+    def _need_scan(self) -> ScanResult:
+        if self.scan is None:
+            raise InputError("No models have been fitted yet; run the scan first.")
+        return self.scan
+
+
+def _read(path, text, data: DataChoice) -> Measurements:
+    return read_measurements(path, text=text, column=data.column, counts=data.counts,
+                             sheet=data.sheet, low=data.low, high=data.high, scale=data.scale)
+
+
+@dataclass(frozen=True)
+class OpenedAnalysis:
+    """A reopened analysis, and whether its source changed since it was saved."""
+
+    analysis: Analysis
+    source_changed: bool
+
+
+def _parse_saved(raw, path) -> dict:
+    """Check the layout of a saved analysis and return it."""
+    bad = FileFormatError(f"{path.name} is not a ClusterDesk analysis file (its contents do not "
+                          "have the expected fields); open the data file itself instead.")
+    if not isinstance(raw, dict) or raw.get("format") != "clusterdesk-analysis":
+        raise bad
+    version = raw.get("format_version")
+    if not isinstance(version, int):
+        raise bad
+    if version > FORMAT_VERSION:
+        raise FileFormatError(f"{path.name} was saved by a newer ClusterDesk "
+                              f"({raw.get('software_version', 'unknown version')}, layout {version}); "
+                              f"this is {__version__}, which reads layout {FORMAT_VERSION}. Update ClusterDesk.")
+    try:
+        source = raw["source"]
+        data = {key: raw["data"][key] for key in DataChoice.__dataclass_fields__ if key in raw["data"]}
+        settings = {key: raw["settings"][key] for key in ScanSettings.__dataclass_fields__
+                    if key in raw["settings"]}
+        choice = raw.get("choice")
+        if not isinstance(source, dict) or "path" not in source or "sha256" not in source:
+            raise bad
+        if choice is not None and (not isinstance(choice, list) or len(choice) != 2):
+            raise bad
+    except (KeyError, TypeError):
+        raise bad from None
+    return {"source": source, "data": data, "settings": settings, "choice": choice}

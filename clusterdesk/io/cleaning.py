@@ -1,0 +1,343 @@
+"""From a parsed column to kept values, with the fate of every data row.
+
+Every data row is either kept or excluded for the first reason that applies,
+in this order: empty, not a number, not finite, below a detection limit,
+above a reporting limit, a zero/missing or negative count, outside the chosen
+range, not positive under a log scale.  The fates are stored column by column
+in numpy arrays (about 10 bytes a row plus the parsed value), so that ten
+million rows stay small.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import cached_property
+from typing import Callable
+
+import numpy as np
+
+from ..errors import InputError
+from . import reasons as R
+from .numbers import ParsedColumn
+from .table import status_counts
+
+__all__ = ["SCALES", "RowFates", "ReadSummary", "CleanResult", "clean_column", "detect_resolution", "check_scale_and_range"]
+
+#: Analysis scales: ``"linear"`` (as measured), ``"ln"`` (natural log), ``"log10"``.
+SCALES = ("linear", "ln", "log10")
+_MAX_DECIMALS = 8
+_BLOCK = 1 << 20
+_STRING_DTYPE = getattr(np.dtypes, "StringDType", None)  # numpy >= 2.0
+
+
+def _text_array(items: list) -> np.ndarray:
+    """Strings as a numpy array: StringDType where numpy has it, else dtype=object."""
+    if _STRING_DTYPE is not None:
+        return np.array(items, dtype=_STRING_DTYPE())
+    return np.array(items, dtype=object)
+
+
+def _readonly(array: np.ndarray) -> np.ndarray:
+    array.flags.writeable = False
+    return array
+
+
+@dataclass(frozen=True)
+class RowFates:
+    """What happened to each data row, stored column by column.
+
+    Attributes
+    ----------
+    line : ndarray of int32 (int64 past 2**31 lines), shape (n_rows,)
+        1-based physical line in the file (text) or sheet row (XLSX).
+    kept : ndarray of bool, shape (n_rows,)
+    reason : ndarray of uint8, shape (n_rows,)
+        0 when kept, else a code of :mod:`clusterdesk.io.reasons`; see
+        :meth:`reason_words`.
+    value : ndarray of float64, shape (n_rows,)
+        The parsed value on the original scale: NaN when empty or not a
+        number, ``inf``/``nan`` when not finite, the limit itself for
+        detection-limit rows.
+    count : ndarray of float64, shape (n_rows,), or None
+        The parsed count (NaN when missing), when a count column is used.
+    raw_rows : ndarray of int64, shape (n_excluded,)
+        The row positions whose text is stored: every excluded row.
+    raw_text : ndarray of str (numpy StringDType; dtype=object on numpy < 2), shape (n_excluded,)
+        The value cell's text of those rows, as written (stripped).
+    """
+
+    line: np.ndarray
+    kept: np.ndarray
+    reason: np.ndarray
+    value: np.ndarray
+    count: np.ndarray | None
+    raw_rows: np.ndarray
+    raw_text: np.ndarray
+
+    def __len__(self) -> int:
+        return int(self.line.size)
+
+    @cached_property
+    def position(self) -> np.ndarray:
+        """Index of each row in ``Measurements.values``; -1 when excluded.
+
+        ndarray of int32 (int64 past 2**31 rows), shape (n_rows,); computed on
+        first use (then kept), so that reading does not pay for it.
+        """
+        kept = self.kept
+        index_type = np.int32 if kept.size < np.iinfo(np.int32).max else np.int64
+        position = np.empty(kept.size, dtype=index_type)
+        np.cumsum(kept, dtype=index_type, out=position)
+        position -= 1
+        position[self.raw_rows] = -1
+        return _readonly(position)
+
+    @staticmethod
+    def reason_words(code: int) -> str:
+        """Words for a reason code (``0`` -> ``"kept"``, ``2`` -> ``"not a number"``)."""
+        return R.reason_words(code)
+
+    def raw(self, row: int) -> str | None:
+        """The text of row ``row`` (0-based position) if stored (every excluded row), else None."""
+        k = int(np.searchsorted(self.raw_rows, row))
+        if k < self.raw_rows.size and self.raw_rows[k] == row:
+            return str(self.raw_text[k])
+        return None
+
+    def excluded(self, code: int | None = None) -> np.ndarray:
+        """Positions of the excluded rows (all, or those with one reason code), shape (n,)."""
+        if code is None:
+            return np.flatnonzero(~self.kept)
+        return np.flatnonzero(self.reason == code)
+
+
+@dataclass(frozen=True)
+class ReadSummary:
+    """Counts that account for every data row.
+
+    Attributes
+    ----------
+    rows_read : int
+        Data rows below the header (blank rows inside the table included).
+    rows_kept : int
+    excluded : dict of str to int
+        Reason words -> number of rows, for the reasons that occurred, in
+        the order of the codes.  ``rows_read == rows_kept + sum(excluded.values())``.
+    total_count : float or None
+        Sum of the kept counts, when a count column is used.
+    """
+
+    rows_read: int
+    rows_kept: int
+    excluded: dict
+    total_count: float | None = None
+
+    def __str__(self) -> str:
+        parts = [f"{self.rows_read} rows read, {self.rows_kept} kept"]
+        if self.excluded:
+            parts.append("excluded: " + ", ".join(f"{n} {words}" for words, n in self.excluded.items()))
+        return "; ".join(parts)
+
+
+@dataclass(frozen=True)
+class CleanResult:
+    """Output of :func:`clean_column`.
+
+    Attributes
+    ----------
+    values, fit_values : ndarray of float64, shape (n_kept,)
+        Kept values on the original and the analysis scale.
+    counts : ndarray of float64, shape (n_kept,), or None
+    rows : RowFates
+    summary : ReadSummary
+    """
+
+    values: np.ndarray
+    fit_values: np.ndarray
+    counts: np.ndarray | None
+    rows: RowFates
+    summary: ReadSummary
+
+
+def check_scale_and_range(scale: str, low, high) -> tuple[float | None, float | None]:
+    """Validate the analysis scale and the range limits.
+
+    Parameters
+    ----------
+    scale : str
+        One of :data:`SCALES`.
+    low, high : float or None
+        Inclusive limits on the original scale.
+
+    Returns
+    -------
+    (low, high) as floats or None
+
+    Raises
+    ------
+    InputError
+        Unknown scale, a limit that is not a finite number, or low > high.
+    """
+    if scale not in SCALES:
+        raise InputError(f"The scale {scale!r} is not known; use one of {', '.join(repr(s) for s in SCALES)}.")
+    out = []
+    for name, limit in (("low", low), ("high", high)):
+        if limit is None:
+            out.append(None)
+            continue
+        try:
+            limit = float(limit)
+        except (TypeError, ValueError):
+            raise InputError(f"The range limit {name}={limit!r} is not a number; give a number or None.") from None
+        if not np.isfinite(limit):
+            raise InputError(f"The range limit {name}={limit!r} is not finite; give a finite number or None.")
+        out.append(limit)
+    if out[0] is not None and out[1] is not None and out[0] > out[1]:
+        raise InputError(f"The range is empty: low={out[0]:g} is above high={out[1]:g}; swap or widen the limits.")
+    return out[0], out[1]
+
+
+def clean_column(
+    parsed: ParsedColumn,
+    lines: np.ndarray,
+    raw: Callable[[np.ndarray], list],
+    *,
+    counts: ParsedColumn | None = None,
+    low: float | None = None,
+    high: float | None = None,
+    scale: str = "linear",
+    release: Callable[[], None] | None = None,
+) -> CleanResult:
+    """Decide the fate of every row and collect the kept values.
+
+    Parameters
+    ----------
+    parsed : ParsedColumn
+        The value column, shape (n_rows,).
+    lines : ndarray of int, shape (n_rows,)
+        Line (or sheet row) of each row.
+    raw : callable
+        ``raw(positions) -> list of str``: the value cells' text at positions.
+    counts : ParsedColumn, optional
+        The count column (value/count tables such as length-frequency tallies).
+    low, high : float, optional
+        Inclusive range limits on the original scale (see
+        :func:`check_scale_and_range`).
+    scale : {"linear", "ln", "log10"}, default "linear"
+    release : callable, optional
+        Called once the raw text of the excluded rows has been taken, so
+        that the caller can free the source's cells or bytes early.
+
+    Returns
+    -------
+    CleanResult
+    """
+    low, high = check_scale_and_range(scale, low, high)
+    value = parsed.values
+    changes = counts is not None or low is not None or high is not None or scale != "linear"
+    reason = parsed.status.copy() if changes else parsed.status
+    count_values = None
+    if counts is not None:
+        count_values = counts.values
+        open_rows = reason == R.KEPT
+        missing = (counts.status != R.KEPT) | (count_values == 0)
+        reason[open_rows & missing] = R.MISSING_COUNT
+        reason[open_rows & ~missing & (count_values < 0)] = R.NEGATIVE_COUNT
+    if low is not None:
+        reason[(reason == R.KEPT) & (value < low)] = R.OUT_OF_RANGE
+    if high is not None:
+        reason[(reason == R.KEPT) & (value > high)] = R.OUT_OF_RANGE
+    if scale != "linear":
+        reason[(reason == R.KEPT) & (value <= 0)] = R.NOT_POSITIVE
+    kept = reason == R.KEPT
+    n_kept = int(np.count_nonzero(kept))
+    raw_rows = np.flatnonzero(~kept) if n_kept < value.size else np.zeros(0, dtype=np.int64)
+    raw_text = _text_array(raw(raw_rows))
+    if release is not None:
+        release()
+    if n_kept == value.size:
+        values = value
+        kept_counts = count_values
+    else:
+        values = value[kept]
+        kept_counts = None if count_values is None else count_values[kept]
+    if scale == "ln":
+        fit_values = np.log(values)
+    elif scale == "log10":
+        fit_values = np.log10(values)
+    else:
+        fit_values = values
+    tallies = status_counts(reason)
+    excluded = {R.REASON_WORDS[c]: int(tallies[c]) for c in range(1, len(R.REASON_WORDS)) if tallies[c]}
+    summary = ReadSummary(
+        rows_read=int(value.size),
+        rows_kept=n_kept,
+        excluded=excluded,
+        total_count=None if kept_counts is None else float(kept_counts.sum()),
+    )
+    for array in (value, reason, kept, lines, values, fit_values):
+        _readonly(array)
+    if count_values is not None:
+        _readonly(count_values)
+        _readonly(kept_counts)
+    rows = RowFates(lines, kept, reason, value, count_values, _readonly(raw_rows), _readonly(raw_text))
+    return CleanResult(values, fit_values, kept_counts, rows, summary)
+
+
+def _on_grid(x: np.ndarray, scale: float, largest: float) -> bool:
+    """Tell whether every value times ``scale`` is within 1e-6 (plus float noise) of an integer."""
+    tolerance = 1e-6 + 4e-16 * largest * scale
+    for a in range(0, x.size, _BLOCK):
+        s = x[a : a + _BLOCK] * scale
+        s -= np.rint(s)
+        if s.max() > tolerance or s.min() < -tolerance:
+            return False
+    return True
+
+
+def detect_resolution(values: np.ndarray) -> float | None:
+    """Find the step of the grid the values sit on (the measurement resolution).
+
+    The values are taken to be written with at most eight decimals; the step
+    is the greatest common divisor of their differences on that decimal
+    grid, so values in half units give 0.5 and whole numbers give 1 (or 2,
+    5, 10 ... when all values share that factor).  Float noise such as
+    ``0.30000000000000004`` is tolerated (1e-6 of a grid step).
+
+    Parameters
+    ----------
+    values : ndarray of float64, shape (n,)
+        Finite values on the original scale.
+
+    Returns
+    -------
+    float or None
+        The step, or None for continuous data (more than eight decimals),
+        fewer than two distinct values, or no values.
+    """
+    x = np.asarray(values, dtype=np.float64)
+    if x.size < 2:
+        return None
+    stride = max(1, x.size // 20000)
+    sample = x[::stride]
+    largest = max(abs(float(x.min())), abs(float(x.max())))
+    decimals = next((k for k in range(_MAX_DECIMALS + 1) if _on_grid(sample, 10.0**k, largest)), None)
+    if decimals is None:
+        return None
+    while decimals <= _MAX_DECIMALS and not _on_grid(x, 10.0**decimals, largest):
+        decimals += 1
+    if decimals > _MAX_DECIMALS:
+        return None
+    scale = 10.0**decimals
+    smallest = np.rint(x.min() * scale)
+    if np.abs(np.rint(x.max() * scale) - smallest) >= 2.0**62:
+        return None
+    step = 0
+    for a in range(0, x.size, _BLOCK):
+        q = np.rint(x[a : a + _BLOCK] * scale) - smallest
+        step = int(np.gcd.reduce(q.astype(np.int64), initial=step))
+        if step == 1:
+            break
+    if step == 0:
+        return None
+    return round(step / scale, decimals)

@@ -1,0 +1,1 @@
+"""Tables (CSV), summaries (JSON) and the report, written atomically."""

@@ -1,0 +1,107 @@
+"""The analysis object: the same numbers as the engine, save and reopen, bad files."""
+
+from __future__ import annotations
+
+import json
+import shutil
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+import clusterdesk
+from clusterdesk.analysis import ANALYSIS_SUFFIX, Analysis, DataChoice, ScanSettings
+from clusterdesk.errors import FileFormatError, InputError
+
+SAMPLES = Path(__file__).resolve().parents[1] / "sample_data"
+SETTINGS = ScanSettings(kmin=1, kmax=4, widths="both", restarts=6, seed=3)
+
+
+@pytest.fixture
+def lake(tmp_path):
+    path = tmp_path / "lake.csv"
+    shutil.copy(SAMPLES / "lake_net_lengths.csv", path)
+    return path
+
+
+def test_scan_equals_the_engine_on_the_kept_values(lake):
+    analysis = Analysis.from_file(lake, DataChoice(column="length_mm"), SETTINGS)
+    analysis.run_scan()
+    direct = clusterdesk.scan(analysis.measurements.values, kmin=1, kmax=4, widths="both",
+                              restarts=6, seed=3)
+    assert [r.bic for r in analysis.scan.ranking] == [r.bic for r in direct.ranking]
+    assert analysis.chosen.k == direct.best.k
+
+
+def test_compute_does_not_change_the_analysis_until_applied(lake):
+    analysis = Analysis.from_file(lake, settings=SETTINGS)
+    result = analysis.compute_scan()
+    assert analysis.scan is None
+    analysis.apply_scan(result)
+    assert analysis.scan is result
+
+
+def test_choice_drives_the_chosen_model_and_assignments(lake):
+    analysis = Analysis.from_file(lake, settings=SETTINGS)
+    analysis.run_scan()
+    model = analysis.choose(2, "shared")
+    assert analysis.chosen is model
+    table = analysis.assignments()
+    assert table["posterior"].shape == (len(analysis.measurements.rows), 2)
+    kept = table["kept"]
+    expected = model.mixture.classify(analysis.measurements.values) + 1
+    assert np.array_equal(table["component"][kept], expected)
+
+
+def test_save_and_reopen_reproduces_the_numbers(lake, tmp_path):
+    analysis = Analysis.from_file(lake, settings=SETTINGS)
+    analysis.run_scan()
+    analysis.choose(4, "separate")
+    saved = analysis.save(tmp_path / "study")
+    assert saved.name == "study" + ANALYSIS_SUFFIX
+    opened = Analysis.open(saved)
+    assert not opened.source_changed
+    again = opened.analysis
+    assert again.choice == (4, "separate")
+    assert again.chosen.loglik == analysis.chosen.loglik
+    assert np.array_equal(again.chosen.mixture.means, analysis.chosen.mixture.means)
+
+
+def test_reopen_reports_a_changed_source(lake, tmp_path):
+    analysis = Analysis.from_file(lake, settings=SETTINGS)
+    analysis.run_scan()
+    saved = analysis.save(tmp_path / "study.cdesk")
+    with open(lake, "a", encoding="utf-8") as handle:
+        handle.write("F9999,N1,150\n")
+    assert Analysis.open(saved).source_changed
+
+
+@pytest.mark.parametrize("content", ["", "{", "[1, 2]", '{"format": "something else"}',
+                                     '{"format": "clusterdesk-analysis", "format_version": 1}'])
+def test_malformed_analysis_files_give_a_clear_error(tmp_path, content):
+    path = tmp_path / "bad.cdesk"
+    path.write_text(content, encoding="utf-8")
+    with pytest.raises(FileFormatError, match="analysis"):
+        Analysis.open(path)
+    assert path.read_text(encoding="utf-8") == content  # nothing overwritten
+
+
+def test_newer_version_and_missing_source(lake, tmp_path):
+    analysis = Analysis.from_file(lake, settings=SETTINGS)
+    saved = json.loads(json.dumps(analysis.to_dict()))
+    newer = dict(saved, format_version=99)
+    (tmp_path / "new.cdesk").write_text(json.dumps(newer), encoding="utf-8")
+    with pytest.raises(FileFormatError, match="newer"):
+        Analysis.open(tmp_path / "new.cdesk")
+    gone = dict(saved, source=dict(saved["source"], path=str(tmp_path / "gone.csv")))
+    (tmp_path / "gone.cdesk").write_text(json.dumps(gone), encoding="utf-8")
+    with pytest.raises(InputError, match="missing"):
+        Analysis.open(tmp_path / "gone.cdesk")
+
+
+def test_questions_before_data_get_clear_errors():
+    analysis = Analysis()
+    with pytest.raises(InputError, match="No measurements"):
+        analysis.fit_input()
+    with pytest.raises(InputError, match="run the scan"):
+        analysis.chosen

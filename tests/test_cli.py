@@ -1,0 +1,130 @@
+"""The command line end to end on the synthetic sample files."""
+
+from __future__ import annotations
+
+import csv
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+import clusterdesk
+from clusterdesk.cli import main
+
+SAMPLES = Path(__file__).resolve().parents[1] / "sample_data"
+
+
+def read_csv(path):
+    with open(path, encoding="utf-8", newline="") as handle:
+        return list(csv.DictReader(handle))
+
+
+def test_demo_subcommand_runs_the_demonstration(capsys):
+    assert main(["demo"]) == 0
+    out = capsys.readouterr().out
+    assert "Synthetic sample: 600 invented fish lengths" in out
+    assert "Best model: 3 components" in out  # the demonstration sample has three classes
+    assert "Caution" in out
+
+
+def test_version_and_help(capsys):
+    with pytest.raises(SystemExit) as stop:
+        main(["--version"])
+    assert stop.value.code == 0
+    assert clusterdesk.__version__ in capsys.readouterr().out
+    with pytest.raises(SystemExit) as stop:
+        main(["fit", "--help"])
+    assert stop.value.code == 0
+    assert "examples:" in capsys.readouterr().out
+
+
+def test_python_dash_m_entry_point():
+    result = subprocess.run([sys.executable, "-m", "clusterdesk", "--version"],
+                            capture_output=True, text=True, check=False)
+    assert result.returncode == 0 and clusterdesk.__version__ in result.stdout
+
+
+@pytest.mark.parametrize("argv", [["fit"], ["fit", "x.csv", "--kmax", "three"], ["nonsense"],
+                                  ["fit", "x.csv", "--widths", "narrow"]])
+def test_usage_errors_exit_2_with_one_line(argv, capsys):
+    with pytest.raises(SystemExit) as stop:
+        main(argv)
+    assert stop.value.code == 2
+    err = capsys.readouterr().err.strip()
+    assert err.count("\n") == 0 and err.startswith("clusterdesk")
+
+
+@pytest.mark.parametrize("argv", [
+    ["fit", "no-such-file.csv"],
+    ["fit", str(SAMPLES / "lake_net_lengths.csv"), "--column", "weight_g"],
+    ["fit", str(SAMPLES / "lake_net_lengths.csv"), "--kmax", "400"],
+    ["fit", str(SAMPLES / "lake_net_lengths.csv"), "--choose", "9"],
+])
+def test_unusable_input_exits_3_with_one_line(argv, capsys):
+    assert main(argv) == 3
+    err = capsys.readouterr().err.strip()
+    assert err.startswith("clusterdesk: ") and "\n" not in err and "Traceback" not in err
+
+
+def test_fit_writes_tables_with_every_input_row(tmp_path, capsys):
+    source = SAMPLES / "messy_export.txt"
+    assert main(["fit", str(source), "--kmax", "3", "--out", str(tmp_path)]) == 0
+    out = capsys.readouterr().out
+    assert "Caution" in out
+    assignments = read_csv(tmp_path / "assignments.csv")
+    summary = json.loads((tmp_path / "summary.json").read_text(encoding="utf-8"))
+    rows_read = summary["cleaning"]["rows_read"]
+    # Rows in = rows out: every data row of the file has one line, excluded ones too.
+    assert len(assignments) == rows_read
+    excluded = [r for r in assignments if r["status"] != "kept"]
+    assert len(excluded) == rows_read - summary["cleaning"]["rows_kept"]
+    assert all(r["component"] == "" for r in excluded)
+    assert {r["status"] for r in excluded} <= {"empty", "not a number"}
+    ranking = read_csv(tmp_path / "ranking.csv")
+    assert len(ranking) == 6  # k = 1..3, both width variants
+    assert [float(r["bic"]) for r in ranking] == sorted(float(r["bic"]) for r in ranking)
+    components = read_csv(tmp_path / "components.csv")
+    assert len(components) == summary["chosen"]["components"]
+    assert sum(float(r["weight"]) for r in components) == pytest.approx(1.0)
+    assert sum(float(r["count_assigned"]) for r in components) == summary["cleaning"]["rows_kept"]
+    assert summary["software"]["version"] == clusterdesk.__version__
+    assert summary["settings"]["seed"] == 0
+    # The numbers written are the engine's for the same values and settings.
+    kept = np.array([float(r["value"]) for r in assignments if r["status"] == "kept"])
+    direct = clusterdesk.scan(kept, kmin=1, kmax=3, widths="both", seed=0)
+    assert float(ranking[0]["bic"]) == direct.ranking[0].bic
+
+
+def test_fit_with_counts_and_json(capsys):
+    assert main(["fit", str(SAMPLES / "length_tally.csv"), "--column", "length_cm",
+                 "--counts", "count", "--kmax", "4", "--json"]) == 0
+    summary = json.loads(capsys.readouterr().out)
+    assert summary["source"]["count_column"] == "count"
+    assert summary["best"]["components"] == 3  # three cohorts generated (sample_data/README.md)
+
+
+def test_fit_log_scale_reports_original_scale_columns(tmp_path, capsys):
+    assert main(["fit", str(SAMPLES / "powder_diameters.csv"), "--column", "diameter_um",
+                 "--scale", "ln", "--kmax", "3", "--widths", "separate", "--out", str(tmp_path)]) == 0
+    components = read_csv(tmp_path / "components.csv")
+    assert all(r["scale"] == "ln" for r in components)
+    for r in components:
+        assert float(r["geometric_mean"]) == pytest.approx(np.exp(float(r["mean"])))
+        assert float(r["multiplicative_spread"]) == pytest.approx(np.exp(float(r["sd"])))
+
+
+def test_choose_reports_a_non_best_model(capsys):
+    assert main(["fit", str(SAMPLES / "lake_net_lengths.csv"), "--kmax", "4",
+                 "--choose", "2:shared", "--json"]) == 0
+    summary = json.loads(capsys.readouterr().out)
+    assert summary["chosen"]["components"] == 2 and summary["chosen"]["widths"] == "shared"
+    assert summary["best"]["components"] != 2 or summary["best"]["widths"] != "shared"
+
+
+def test_columns_lists_the_sheet(capsys):
+    assert main(["columns", str(SAMPLES / "shaft_diameters.xlsx")]) == 0
+    out = capsys.readouterr().out
+    assert "diameter_mm" in out and "part_id" in out

@@ -207,6 +207,12 @@ class Analysis:
         raise InputError("These intervals belong to a model that is not in this analysis's scan; "
                          "estimate them again.")
 
+    def run_intervals(self, **options):
+        """Compute and keep intervals for the chosen model in one call (scripts, command line)."""
+        result = self.compute_intervals(**options)
+        self.apply_intervals(result)
+        return result
+
     @property
     def intervals(self):
         """Bootstrap intervals of the chosen model, or None when not estimated."""
@@ -227,6 +233,20 @@ class Analysis:
         values, counts = self.fit_input()
         model = self.chosen if model is None else model
         return goodness_of_fit(model.mixture, values, counts)
+
+    def classification(self, model: FittedModel | None = None):
+        """Rows assigned to components, confident share and misclassification rates.
+
+        Returns
+        -------
+        ClassificationSummary
+            See :func:`clusterdesk.engine.classify.classification_summary`.
+        """
+        from .engine.classify import classification_summary
+
+        values, counts = self.fit_input()
+        model = self.chosen if model is None else model
+        return classification_summary(model.mixture, values, counts)
 
     # ------------------------------------------------------------ assignments
     def assignments(self):

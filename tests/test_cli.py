@@ -128,3 +128,21 @@ def test_columns_lists_the_sheet(capsys):
     assert main(["columns", str(SAMPLES / "shaft_diameters.xlsx")]) == 0
     out = capsys.readouterr().out
     assert "diameter_mm" in out and "part_id" in out
+
+
+def test_fit_with_intervals_report_and_lr_test(tmp_path, capsys):
+    report = tmp_path / "lake.html"
+    assert main(["fit", str(SAMPLES / "lake_net_lengths.csv"), "--kmax", "4", "--widths", "separate",
+                 "--intervals", "30", "--test-next", "19", "--report", str(report),
+                 "--out", str(tmp_path)]) == 0
+    out = capsys.readouterr().out
+    assert "percentile intervals from" in out and "likelihood ratio" in out
+    assert report.is_file() and "Bootstrap intervals" in report.read_text(encoding="utf-8")
+    components = read_csv(tmp_path / "components.csv")
+    summary = json.loads((tmp_path / "summary.json").read_text(encoding="utf-8"))
+    assert summary["intervals"]["replicates"] == 30
+    for j, row in enumerate(components):
+        lower, upper = float(row["mean_lower"]), float(row["mean_upper"])
+        assert lower <= float(row["mean"]) <= upper
+        assert [lower, upper] == summary["intervals"]["mean"][j]  # CSV re-reads exactly
+        assert 0.0 <= float(row["expected_misclassification"]) <= 1.0

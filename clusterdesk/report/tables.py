@@ -48,27 +48,64 @@ def ranking_table(scan) -> Table:
 def components_table(analysis) -> Table:
     """One row per component of the chosen model.
 
-    Means, standard deviations and cut points are on the analysis scale (the
-    ``scale`` column says which); under a log scale the geometric mean and the
-    multiplicative spread on the original scale are added.
+    Weight, mean, standard deviation and the cut point to the next component
+    (on the analysis scale, which the ``scale`` column names), the count
+    assigned, the share assigned with posterior >= 0.9 and the model's
+    expected misclassification rate; bootstrap intervals and standard errors
+    when they have been estimated; under a log scale the geometric mean, the
+    multiplicative spread and the cut point on the original scale.
     """
     model = analysis.chosen
     mix = model.mixture
     scale = analysis.measurements.scale
-    values, counts = analysis.fit_input()
-    assigned = np.bincount(mix.classify(values), weights=counts, minlength=mix.k)
+    summary = analysis.classification()
     cuts = np.append(mix.cut_points(), np.nan)
-    header = ["component", "scale", "weight", "mean", "sd", "count_assigned", "cut_to_next"]
+    boot = analysis.intervals
+    header = ["component", "scale", "weight", "mean", "sd", "count_assigned",
+              "share_confident", "expected_misclassification", "cut_to_next"]
+    if boot is not None:
+        header += [f"{q}_{end}" for q in ("weight", "mean", "sd", "cut_to_next")
+                   for end in ("lower", "upper", "se")]
     if scale in _BACK:
         header += ["geometric_mean", "multiplicative_spread", "cut_to_next_original_scale"]
+    counts = analysis.fit_input()[1]
+    confident = _confident_share_by_component(summary, counts)
     rows = []
     for j in range(mix.k):
-        row = [j + 1, scale, mix.weights[j], mix.means[j], mix.sds[j], float(assigned[j]), cuts[j]]
+        row = [j + 1, scale, mix.weights[j], mix.means[j], mix.sds[j],
+               float(summary.assigned_counts[j]), confident[j],
+               float(summary.misclassification[j]), cuts[j]]
+        if boot is not None:
+            row += _interval_cells(boot, j)
         if scale in _BACK:
             back = _BACK[scale]
             row += [float(back(mix.means[j])), float(back(mix.sds[j])), float(back(cuts[j]))]
         rows.append(row)
     return Table(tuple(header), rows)
+
+
+def _confident_share_by_component(summary, counts) -> np.ndarray:
+    """Share of each component's assigned rows whose posterior is >= the threshold."""
+    k = summary.posterior.shape[1]
+    top = summary.posterior.max(axis=1)
+    weights = np.ones(top.size) if counts is None else np.asarray(counts, dtype=float)
+    sure = np.bincount(summary.assigned, weights=weights * (top >= summary.threshold), minlength=k)
+    total = np.bincount(summary.assigned, weights=weights, minlength=k)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(total > 0, sure / total, np.nan)
+
+
+def _interval_cells(boot, j) -> list:
+    cells = []
+    for interval, se in ((boot.weight_interval, boot.weight_se), (boot.mean_interval, boot.mean_se),
+                         (boot.sd_interval, boot.sd_se)):
+        cells += [float(interval[j, 0]), float(interval[j, 1]), float(se[j])]
+    if j < boot.k - 1:
+        cells += [float(boot.cut_point_interval[j, 0]), float(boot.cut_point_interval[j, 1]),
+                  float(boot.cut_point_se[j])]
+    else:
+        cells += [np.nan, np.nan, np.nan]
+    return cells
 
 
 def assignment_table(analysis) -> Table:
@@ -115,8 +152,32 @@ def summary_dict(analysis) -> dict:
                    "means": mix.means.tolist(), "sds": mix.sds.tolist(),
                    "cut_points": [None if np.isnan(c) else float(c) for c in mix.cut_points()],
                    "notes": list(chosen.notes)},
+        "classification": _classification_dict(analysis),
+        "intervals": _intervals_dict(analysis.intervals),
         "caution": CAUTION,
     }
+
+
+def _classification_dict(analysis) -> dict:
+    summary = analysis.classification()
+    return {"share_assigned_with_posterior_at_least": summary.threshold,
+            "confident_share": summary.confident_share,
+            "assigned_counts": summary.assigned_counts.tolist(),
+            "expected_misclassification": summary.misclassification.tolist(),
+            "overall_expected_misclassification": summary.overall_misclassification}
+
+
+def _intervals_dict(boot):
+    if boot is None:
+        return None
+    def plain(a):
+        return [[None if not np.isfinite(v) else float(v) for v in row] for row in np.atleast_2d(a)]
+    return {"method": boot.method, "path": boot.path, "level": boot.level, "seed": boot.seed,
+            "replicates": boot.replicates, "usable": boot.n_ok, "failed": boot.n_failed,
+            "collapsed": boot.n_collapsed, "weight": plain(boot.weight_interval),
+            "mean": plain(boot.mean_interval), "sd": plain(boot.sd_interval),
+            "cut_point": plain(boot.cut_point_interval) if boot.k > 1 else [],
+            "notes": list(boot.notes)}
 
 
 def write_tables(analysis, folder) -> dict:

@@ -26,6 +26,7 @@ import numpy as np
 __all__ = ["NewtonOutcome", "loglik_derivatives", "newton_polish"]
 
 _HALF_LOG_2PI = 0.5 * float(np.log(2.0 * np.pi))
+_CHUNK_ROWS = 1 << 16
 
 
 @dataclass(frozen=True)
@@ -81,55 +82,86 @@ def loglik_derivatives(x, c, w, mu, sd, shared, order=2):
         Expected count in each component.
     """
     k = mu.size
-    z = (x[:, None] - mu) / sd
-    logphi = np.log(w) - np.log(sd) - _HALF_LOG_2PI - 0.5 * z * z
-    top = logphi.max(axis=1)
-    resp = np.exp(logphi - top[:, None])
-    total = resp.sum(axis=1)
-    loglik = float(c @ (top + np.log(total)))
-    resp /= total[:, None]
-    cr = resp * c[:, None]
-    nk = cr.sum(axis=0)
+    p = 3 * k - 1 if not shared else 2 * k
+    loglik = 0.0
+    nk = np.zeros(k)
+    grad = np.zeros(p)
+    outer = np.zeros((p, p))
+    sums = np.zeros((5, k))  # sum c r times: z, z^2, z^2 - 1, z (z^2 - 1), (z^2 - 1)^2
+    # Chunks keep memory bounded and every numpy call short, so a worker
+    # thread running this never holds the interpreter for long (the window's
+    # event loop stays responsive).
+    for start in range(0, x.size, _CHUNK_ROWS):
+        part = _chunk_terms(x[start:start + _CHUNK_ROWS], c[start:start + _CHUNK_ROWS],
+                            w, mu, sd, shared, order)
+        loglik += part[0]
+        nk += part[1]
+        if order >= 1:
+            grad += part[2]
+        if order == 2:
+            outer += part[3]
+            sums += part[4]
     if order == 0:
         return loglik, None, None, nk
-    z2m1 = z * z - 1.0
-    s_eta = resp[:, :k - 1] - w[:k - 1]
-    s_mu = resp * z / sd
-    s_tau = resp * z2m1
-    if shared:
-        s_tau = s_tau.sum(axis=1, keepdims=True)
-    scores = np.hstack([s_eta, s_mu, s_tau])
-    grad = c @ scores
     if order == 1:
         return loglik, grad, None, nk
-    p = grad.size
-    hess = -(scores.T * c) @ scores
+    hess = -outer
     i_eta = np.arange(k - 1)
     i_mu = k - 1 + np.arange(k)
     i_tau = np.full(k, 2 * k - 1) if shared else 2 * k - 1 + np.arange(k)
     n = c.sum()
+    s_z, s_z2, s_z2m1, s_zz2m1, s_z2m1sq = sums
     # Sum over components of r_ij (second derivative of log phi_ij + g_ij g_ij').
     e_part = np.eye(k)[:, :k - 1] - w[:k - 1]            # (k, k-1): row j is e_j - w
     hess[np.ix_(i_eta, i_eta)] += -n * (np.diag(w[:k - 1]) - np.outer(w[:k - 1], w[:k - 1]))
     hess[np.ix_(i_eta, i_eta)] += (e_part.T * nk) @ e_part
-    u_mu = (cr * z).sum(axis=0) / sd                   # sum_i c r z / sd, per component
-    u_tau = (cr * z2m1).sum(axis=0)
+    u_mu = s_z / sd                                    # sum_i c r z / sd, per component
+    u_tau = s_z2m1
     cross = np.zeros((k - 1, p))
     np.add.at(cross.T, i_mu, (e_part * u_mu[:, None]))
     np.add.at(cross.T, i_tau, (e_part * u_tau[:, None]))
     hess[i_eta, :] += cross
     hess[:, i_eta] += cross.T
-    mm = (cr * z * z).sum(axis=0) / sd**2
-    mt = (cr * z * z2m1).sum(axis=0) / sd
-    tt = (cr * z2m1 * z2m1).sum(axis=0)
+    mm = s_z2 / sd**2
+    mt = s_zz2m1 / sd
+    tt = s_z2m1sq
     d_mm = -nk / sd**2
-    d_mt = -2.0 * (cr * z).sum(axis=0) / sd
-    d_tt = -2.0 * (cr * z * z).sum(axis=0)
+    d_mt = -2.0 * s_z / sd
+    d_tt = -2.0 * s_z2
     np.add.at(hess, (i_mu, i_mu), mm + d_mm)
     np.add.at(hess, (i_mu, i_tau), mt + d_mt)
     np.add.at(hess, (i_tau, i_mu), mt + d_mt)
     np.add.at(hess, (i_tau, i_tau), tt + d_tt)
     return loglik, grad, hess, nk
+
+
+def _chunk_terms(x, c, w, mu, sd, shared, order):
+    """Additive contributions of one chunk of values to :func:`loglik_derivatives`."""
+    k = mu.size
+    z = (x[:, None] - mu) / sd
+    logphi = np.log(w) - np.log(sd) - _HALF_LOG_2PI - 0.5 * z * z
+    top = logphi.max(axis=1)
+    resp = np.exp(logphi - top[:, None])
+    total = resp.sum(axis=1)
+    loglik = float(np.dot(c, top + np.log(total)))
+    resp /= total[:, None]
+    cr = resp * c[:, None]
+    nk = cr.sum(axis=0)
+    if order == 0:
+        return loglik, nk
+    z2m1 = z * z - 1.0
+    s_tau = resp * z2m1
+    if shared:
+        s_tau = s_tau.sum(axis=1, keepdims=True)
+    scores = np.hstack([resp[:, :k - 1] - w[:k - 1], resp * z / sd, s_tau])
+    grad = np.dot(c, scores)
+    if order == 1:
+        return loglik, nk, grad
+    outer = np.dot((scores * c[:, None]).T, scores)
+    crz = cr * z
+    sums = np.stack([crz.sum(axis=0), (crz * z).sum(axis=0), (cr * z2m1).sum(axis=0),
+                     (crz * z2m1).sum(axis=0), (cr * z2m1 * z2m1).sum(axis=0)])
+    return loglik, nk, grad, outer, sums
 
 
 def newton_polish(x, c, weights, means, variances, *, shared, var_floor, tol_abs,

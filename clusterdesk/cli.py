@@ -1,7 +1,11 @@
 """The ``clusterdesk`` command.
 
-With no argument it will open the window (not built yet: for now it runs a
-short headless demonstration scan on a seeded synthetic sample).
+With no argument it opens the desktop window; with a single existing file as
+its only argument (a data file or a saved analysis) it opens the window with
+that file. Subcommands run headless: ``fit``, ``columns`` and ``demo`` (a
+short demonstration scan on a seeded synthetic sample). The window's modules
+are imported only when the window is opened, so the headless commands never
+load Qt.
 """
 
 from __future__ import annotations
@@ -11,7 +15,7 @@ import sys
 
 import numpy as np
 
-from . import __version__
+from ._version import __version__
 from .api import scan
 from .errors import InputError
 
@@ -36,7 +40,7 @@ def run_demo(out=sys.stdout) -> int:
     """Scan the synthetic demonstration sample and print the ranking."""
     values = demo_sample()
     print("ClusterDesk", __version__, file=out)
-    print("The desktop window is not built yet; here is a headless demonstration instead.", file=out)
+    print("Headless demonstration (run clusterdesk with no argument for the window).", file=out)
     print(f"Synthetic sample: {values.size} invented fish lengths (mm) from three age classes "
           f"(seed {DEMO_SEED}).", file=out)
     result = scan(values, kmin=1, kmax=5, widths="both", seed=0)
@@ -73,23 +77,219 @@ def format_components(model) -> str:
     return "\n".join(lines)
 
 
+EXAMPLES = """\
+examples:
+  clusterdesk                                   open the window
+  clusterdesk survey.csv                        open the window with this file (or a saved .cdesk)
+  clusterdesk demo                              a short demonstration scan, headless
+  clusterdesk columns survey.csv                list the columns and what they hold
+  clusterdesk fit survey.csv --column length_mm --kmax 5
+  clusterdesk fit tally.csv --column length_cm --counts count --widths separate
+  clusterdesk fit assay.csv --scale log10 --low 0.01 --out results/
+  clusterdesk fit survey.csv --intervals 200 --report survey.html --out results/
+  clusterdesk fit gauge.xlsx --sheet inspection --column diameter_mm --json
+
+exit codes: 0 success, 2 usage error, 3 unusable input (the message says why)
+"""
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse with one-line errors and exit code 2 for usage mistakes."""
+
+    def error(self, message):
+        self.exit(2, f"{self.prog}: {message} (see --help)\n")
+
+
 def build_parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(
+    """The command-line grammar."""
+    parser = _Parser(
         prog="clusterdesk",
-        description="Find, measure and label the groups in one column of measurements.",
-        epilog="Run with no argument for a demonstration scan of a synthetic sample.",
+        description="Find, measure and label the groups in one column of measurements "
+                    "with Gaussian mixtures.",
+        epilog=EXAMPLES, formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     parser.add_argument("--version", action="version", version=f"clusterdesk {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+
+    sub.add_parser("demo", help="a demonstration scan of a synthetic sample, headless")
+
+    cols = sub.add_parser("columns", help="list the columns of a file and what they hold")
+    cols.add_argument("file")
+    cols.add_argument("--sheet", help="sheet name or 0-based number (workbooks)")
+
+    fit = sub.add_parser("fit", help="fit mixtures to one column of one file",
+                         epilog=EXAMPLES, formatter_class=argparse.RawDescriptionHelpFormatter)
+    fit.add_argument("file", help="CSV, TSV, text or XLSX file")
+    fit.add_argument("--column", help="value column: name or 0-based number (default: first numeric)")
+    fit.add_argument("--counts", help="count column for value/count tables")
+    fit.add_argument("--sheet", help="sheet name or 0-based number (workbooks)")
+    fit.add_argument("--kmin", type=int, default=1, help="fewest components (default 1)")
+    fit.add_argument("--kmax", type=int, default=6, help="most components (default 6)")
+    fit.add_argument("--widths", choices=("separate", "shared", "both"), default="both",
+                     help="each component its own sd, one shared sd, or both (default both)")
+    fit.add_argument("--restarts", type=int, default=10, help="starts per model (default 10)")
+    fit.add_argument("--seed", type=int, default=0, help="random seed (default 0)")
+    fit.add_argument("--scale", choices=("linear", "ln", "log10"), default="linear",
+                     help="fit on the values or on their logarithm (default linear)")
+    fit.add_argument("--low", type=float, help="exclude values below this (original scale)")
+    fit.add_argument("--high", type=float, help="exclude values above this (original scale)")
+    fit.add_argument("--choose", metavar="K[:WIDTHS]",
+                     help="report this model instead of the best, e.g. 3 or 3:shared")
+    fit.add_argument("--out", metavar="FOLDER", help="write CSV tables and summary.json here")
+    fit.add_argument("--json", action="store_true", help="print the JSON summary instead of tables")
+    boot = fit.add_argument_group("uncertainty")
+    boot.add_argument("--intervals", type=int, metavar="REPLICATES", default=0,
+                      help="estimate bootstrap intervals with this many replicates (e.g. 200)")
+    boot.add_argument("--interval-method", choices=("resample", "parametric"), default="resample",
+                      help="resample the values or simulate from the fit (default resample)")
+    boot.add_argument("--level", type=float, default=0.95,
+                      help="confidence level of the intervals (default 0.95)")
+    boot.add_argument("--test-next", type=int, metavar="REPLICATES", default=0,
+                      help="test the chosen k against k+1 components by a parametric bootstrap "
+                           "of the likelihood ratio, with this many simulated samples (e.g. 99)")
+    fit.add_argument("--report", metavar="FILE.html", help="write the HTML report here")
     return parser
+
+
+def _column_arg(text):
+    if text is None:
+        return None
+    return int(text) if text.isdigit() else text
+
+
+def run_columns(args, out) -> int:
+    """Print each column's name and what it holds."""
+    from .io import list_columns
+
+    columns = list_columns(args.file, sheet=_column_arg(args.sheet))
+    print(f"{'#':>3}  {'name':<24} {'numbers':>8} {'other':>6} {'empty':>6}  first values", file=out)
+    for c in columns:
+        print(f"{c.index:>3}  {c.name[:24]:<24} {c.numeric_count:>8} {c.non_numeric_count:>6} "
+              f"{c.empty_count:>6}  {', '.join(c.first_values)}", file=out)
+    return 0
+
+
+def run_fit(args, out) -> int:
+    """Read, clean, scan, report; optionally write the tables."""
+    import json
+
+    from .analysis import Analysis, DataChoice, ScanSettings
+    from .report.tables import CAUTION, summary_dict, write_tables
+
+    data = DataChoice(column=_column_arg(args.column), counts=_column_arg(args.counts),
+                      sheet=_column_arg(args.sheet), low=args.low, high=args.high, scale=args.scale)
+    settings = ScanSettings(kmin=args.kmin, kmax=args.kmax, widths=args.widths,
+                            restarts=args.restarts, seed=args.seed)
+    analysis = Analysis.from_file(args.file, data, settings)
+    analysis.run_scan()
+    if args.choose:
+        k_text, _, widths = args.choose.partition(":")
+        if not k_text.isdigit():
+            raise InputError(f"--choose takes a component count such as 3 or 3:shared, not {args.choose!r}.")
+        analysis.choose(int(k_text), widths or "separate")
+    if args.intervals:
+        analysis.run_intervals(replicates=args.intervals, method=args.interval_method,
+                               level=args.level)
+    lr_test = _next_component_test(analysis, args.test_next) if args.test_next else None
+    written = write_tables(analysis, args.out) if args.out else {}
+    if args.report:
+        from .report.html import write_report
+
+        written["report"] = write_report(analysis, args.report)
+    if args.json:
+        print(json.dumps(summary_dict(analysis), indent=2), file=out)
+        return 0
+    m = analysis.measurements
+    print(f"{m.source}: column {m.column.name!r}; {m.summary}", file=out)
+    if m.resolution:
+        print(f"values recorded to a resolution of {m.resolution:g}", file=out)
+    print(f"fitted on the {m.scale} scale\n", file=out)
+    print(format_ranking(analysis.scan), file=out)
+    chosen = analysis.chosen
+    label = "best" if analysis.choice is None else "chosen"
+    print(f"\n{label.capitalize()} model: {chosen.k} components, {chosen.widths} widths "
+          f"(BIC evidence of the best over the runner-up: {analysis.scan.evidence or 'n/a'})", file=out)
+    print(format_components(chosen), file=out)
+    for note in chosen.notes:
+        print(f"note: {note}", file=out)
+    if analysis.intervals is not None:
+        print(format_intervals(analysis.intervals), file=out)
+    if lr_test is not None:
+        print(f"\n{chosen.k} against {chosen.k + 1} components (parametric bootstrap of the "
+              f"likelihood ratio, {lr_test.replicates} samples): statistic {lr_test.statistic:.3f}, "
+              f"p = {lr_test.p_value:.3g}", file=out)
+    if chosen.k > 1:
+        print(f"\nCaution: {CAUTION}", file=out)
+    for name, path in written.items():
+        print(f"wrote {path}", file=out)
+    return 0
+
+
+def _next_component_test(analysis, replicates):
+    from .api import likelihood_ratio_test
+
+    values, counts = analysis.fit_input()
+    chosen = analysis.chosen
+    return likelihood_ratio_test(values, chosen.k, counts=counts, widths=chosen.widths,
+                                 replicates=replicates, seed=analysis.settings.seed)
+
+
+def format_intervals(boot) -> str:
+    """Bootstrap intervals as a plain-text table."""
+    lines = [f"\n{boot.describe()}",
+             f"{'quantity':<16} {'estimate':>12} {'lower':>12} {'upper':>12} {'std. error':>12}"]
+    for name, est, lo, hi, se in boot.table_rows():
+        lines.append(f"{name:<16} {est:>12.5g} {lo:>12.5g} {hi:>12.5g} {se:>12.4g}")
+    lines += [f"note: {n}" for n in boot.notes]
+    return "\n".join(lines)
+
+
+_SUBCOMMANDS = ("fit", "columns", "demo")
+
+
+def wants_window(argv) -> bool:
+    """True for no argument, or one existing file that is not a subcommand's name."""
+    if not argv:
+        return True
+    if len(argv) != 1 or argv[0] in _SUBCOMMANDS or argv[0].startswith("-"):
+        return False
+    from pathlib import Path
+
+    return Path(argv[0]).is_file()
+
+
+def open_window(path=None) -> int:
+    """Open the desktop window (imported here only, so headless use never loads Qt)."""
+    try:
+        from .gui.app import main as window_main
+    except ImportError as exc:
+        print(f"clusterdesk: the window cannot start ({exc}); install PySide6-Essentials and "
+              "pyqtgraph, or use a subcommand (see clusterdesk --help).", file=sys.stderr)
+        return 3
+    return window_main(path)
 
 
 def main(argv=None) -> int:
     """Entry point; returns the process exit code (0 ok, 2 usage, 3 unusable input)."""
+    argv = sys.argv[1:] if argv is None else list(argv)
+    if wants_window(argv):
+        return open_window(argv[0] if argv else None)
     parser = build_parser()
-    args = sys.argv[1:] if argv is None else list(argv)
+    args = parser.parse_args(argv)
+    out = sys.stdout
     try:
-        parser.parse_args(args)
-        return run_demo()
+        if args.command == "fit":
+            return run_fit(args, out)
+        if args.command == "columns":
+            return run_columns(args, out)
+        if args.command == "demo":
+            return run_demo(out)
+        parser.print_help(out)
+        return 2
     except InputError as exc:
         print(f"clusterdesk: {exc}", file=sys.stderr)
+        return 3
+    except OSError as exc:
+        print(f"clusterdesk: {exc.strerror or exc} ({exc.filename or 'output'}); "
+              "check the path and permissions.", file=sys.stderr)
         return 3

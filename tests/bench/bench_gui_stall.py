@@ -88,17 +88,20 @@ def run_phase(window, probe, start, runner=None, idle_seconds=None):
     if idle_seconds is not None:
         QTimer.singleShot(int(idle_seconds * 1000), loop.quit)
     else:
-        (runner or window.runner).finished.connect(loop.quit)
+        # Keep probing after the result arrived, until the window has shown it (view jobs included).
+        def finish_when_shown(_outcome=None):
+            if window.view_jobs.busy or window.runner.busy:
+                QTimer.singleShot(50, finish_when_shown)
+            else:
+                QTimer.singleShot(300, loop.quit)
+
+        (runner or window.runner).finished.connect(finish_when_shown)
         start()
     loop.exec()
     seconds = time.perf_counter() - t0
     probe.stop()
-    if idle_seconds is None:
-        (runner or window.runner).finished.disconnect(loop.quit)
-        QTimer.singleShot(0, loop.quit)
-        loop.exec()
-    handover = HANDOVERS[-1] if HANDOVERS else float("inf")
-    return seconds, split_gaps(probe.times, handover)
+    handover = HANDOVERS[0] if HANDOVERS else float("inf")
+    return seconds, split_gaps(probe.times, handover), (t0, handover, list(probe.times))
 
 
 def synthetic(n, seed=20261201):
@@ -111,6 +114,7 @@ def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--n", type=int, default=1_000_000, help="number of values (default 10^6)")
     parser.add_argument("--replicates", type=int, default=200)
+    parser.add_argument("--details", action="store_true", help="print the three longest gaps of each phase")
     args = parser.parse_args(argv)
 
     _record_handover()
@@ -143,10 +147,15 @@ def main(argv=None) -> int:
               ("scan k=1..4, both widths, 3 restarts", fit, None, None),
               (f"bootstrap, {args.replicates} replicates", intervals, None, None),
               ("fit check for the Q-Q view", lambda: window.plots.setCurrentWidget(window.qq),
-               window.check_runner, None)]
+               window.view_jobs, None)]
     results = []
     for name, start, runner, idle in phases:
-        seconds, (working, applying) = run_phase(window, probe, start, runner, idle)
+        seconds, (working, applying), (t0, handover, times) = run_phase(window, probe, start, runner, idle)
+        if args.details:
+            gaps = np.diff(times) * 1000.0
+            for i in np.argsort(gaps)[::-1][:3]:
+                print(f"  {name}: gap {gaps[i]:.0f} ms ending {times[i + 1] - t0:.2f} s after the start "
+                      f"(result handed over at {handover - t0:.2f} s)", file=sys.stderr)
         stall = max(float(working.max()) - PERIOD_MS, 0.0) if working.size else float("nan")
         apply = max(float(applying.max()) - PERIOD_MS, 0.0) if applying.size else 0.0
         p99 = float(np.percentile(working, 99)) if working.size else 0.0

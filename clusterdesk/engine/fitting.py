@@ -369,8 +369,9 @@ def _finish(data, sample, result, best, k, widths, agreeing, restarts, collapsed
     notes = []
     converged = bool(result.converged[best])
     if not converged:
-        notes.append(f"EM stopped at the iteration cap ({int(result.iterations[best])} steps) "
-                     "before converging; treat this model with caution or raise the cap.")
+        notes.append(f"The fit did not meet the convergence rule within its step limits "
+                     f"({int(result.iterations[best])} EM and Newton steps); treat this model "
+                     "with caution.")
     if collapsed:
         notes.append("Every restart ended with a component squeezed onto a few values "
                      "(a spurious maximum); this model is not a credible description.")

@@ -13,7 +13,7 @@ import numpy as np
 
 from . import criteria
 from .fitting import FitSettings, FittedModel, fit_model
-from .validation import check_component_range, check_widths, prepare_sample
+from .validation import check_component_range, check_seed, check_widths, prepare_sample
 from ..errors import Cancelled, InputError
 
 __all__ = ["RankingRow", "ScanResult", "scan_models", "model_rng"]
@@ -142,6 +142,7 @@ def scan_models(values, *, counts=None, kmin=1, kmax=6, widths="separate", resta
     sample = prepare_sample(values, counts)
     variants = check_widths(widths)
     check_component_range(kmin, kmax, sample)
+    check_seed(seed)
     settings = _with_restarts(settings, restarts)
     jobs = [(w, k) for w in variants for k in range(kmin, kmax + 1)]
     models = []

@@ -148,8 +148,9 @@ def check_component_range(kmin: int, kmax: int, sample: Sample) -> None:
     """
     for name, k in (("kmin", kmin), ("kmax", kmax)):
         if not isinstance(k, (int, np.integer)) or isinstance(k, bool) or k < 1:
-            raise InputError(f"{name} (a number of components) must be a whole number >= 1, "
-                             f"got {k!r}; a mixture has at least one component.")
+            what = "the number of components" if kmin == kmax else f"{name} (a number of components)"
+            raise InputError(f"{what} must be a whole number >= 1, got {k!r}; a mixture has at "
+                             "least one component.")
     if kmin > kmax:
         raise InputError(f"kmin ({kmin}) is larger than kmax ({kmax}); swap them or widen the range.")
     limit = max_components(sample)
@@ -193,3 +194,11 @@ def weighted_mean_sd(x, c) -> tuple[float, float]:
     if reach == 0.0:
         return mean, 0.0
     return mean, reach * float(np.sqrt(np.dot(c, (d / reach) ** 2) / n))
+
+
+def check_seed(seed) -> int:
+    """A seed must be a whole number >= 0 (the same seed gives the same result)."""
+    if isinstance(seed, bool) or not isinstance(seed, (int, np.integer)) or seed < 0:
+        raise InputError(f"The seed must be a whole number >= 0, got {seed!r}; the same seed "
+                         "gives the same result, bit for bit.")
+    return int(seed)

@@ -8,10 +8,9 @@ from __future__ import annotations
 
 from .engine.bootstrap import BootstrapResult, bootstrap_model
 from .engine.fitting import FitSettings, FittedModel, fit_model
-from .engine.lrtest import LikelihoodRatioResult
-from .engine.lrtest import likelihood_ratio_test as _likelihood_ratio_test
+from .engine.lrtest import likelihood_ratio_test  # the engine function is the public door
 from .engine.scan import ScanResult, model_rng, scan_models
-from .engine.validation import check_component_range, check_widths, prepare_sample
+from .engine.validation import check_component_range, check_seed, check_widths, prepare_sample
 from .errors import InputError
 
 __all__ = ["scan", "fit", "bootstrap", "likelihood_ratio_test"]
@@ -80,6 +79,7 @@ def fit(values, k, *, counts=None, widths="separate", restarts=10, seed=0, cance
     if len(variants) != 1:
         raise InputError("fit() takes one width variant: 'separate' or 'shared'; use scan() for both.")
     check_component_range(k, k, sample)
+    check_seed(seed)
     if not isinstance(restarts, int) or restarts < 1:
         raise InputError(f"restarts must be a whole number >= 1, got {restarts!r}.")
     return fit_model(sample, k, variants[0], model_rng(seed, k, variants[0]),
@@ -124,32 +124,3 @@ def bootstrap(values, model, *, counts=None, replicates=200, method="resample", 
     return bootstrap_model(sample, model, replicates=replicates, method=method, level=level,
                            seed=seed, workers=workers, progress=progress, cancel=cancel)
 
-
-def likelihood_ratio_test(values, k, *, counts=None, widths="separate", replicates=99, restarts=5,
-                          seed=0, progress=None, cancel=None, workers=None) -> LikelihoodRatioResult:
-    """Test ``k`` components against ``k + 1`` by a parametric bootstrap of the likelihood ratio.
-
-    Parameters
-    ----------
-    values : array_like, shape (n,)
-    k : int
-        Components under the null hypothesis.
-    counts : array_like, shape (n,), optional
-    widths : {"separate", "shared"}, default "separate"
-    replicates : int, default 99
-        Samples simulated from the k-component fit (at least 19).
-    restarts : int, default 5
-        Restarts of every fit (observed and simulated).
-    seed : int, default 0
-    progress, cancel, workers
-        As for :func:`bootstrap`.
-
-    Returns
-    -------
-    LikelihoodRatioResult
-        ``.statistic``, ``.p_value`` = (1 + #{simulated >= statistic}) / (1 + replicates),
-        ``.simulated`` statistics, the two fits.
-    """
-    return _likelihood_ratio_test(values, k, counts=counts, widths=widths, replicates=replicates,
-                                  restarts=restarts, seed=seed, workers=workers,
-                                  progress=progress, cancel=cancel)

@@ -30,7 +30,7 @@ from .replicates import draw_replicates, plan_replicates, refit_replicates
 from .validation import Sample
 
 __all__ = ["BootstrapResult", "bootstrap_model", "percentile_interval", "bootstrap_se",
-           "METHODS", "CUT_POINT_CAUTION"]
+           "replicate_cut_points", "METHODS", "CUT_POINT_CAUTION"]
 
 METHODS = ("resample", "parametric")
 MIN_REPLICATES = 10
@@ -313,13 +313,13 @@ def _summarise(joined, model, plan, replicates, level) -> BootstrapResult:
     w, m, s = (joined[key][ok] for key in ("weights", "means", "sds"))
     cuts = replicate_cut_points(w, m, s)
     missing = np.sum(~np.isfinite(cuts), axis=0)
-    notes = _notes(plan, replicates, int(ok.sum()), int(failed.sum()), int(collapsed.sum()),
-                   int(joined["relabelled"][ok].sum()), missing, level)
+    counts = dict(n_ok=int(ok.sum()), n_failed=int(failed.sum()), n_collapsed=int(collapsed.sum()),
+                  n_relabelled=int(joined["relabelled"][ok].sum()))
+    notes = _notes(plan, replicates, missing=missing, level=level, **counts)
     return BootstrapResult(
         method=plan.method, path=plan.path, support_size=plan.support_size,
         replicates=replicates, level=level, seed=plan.seed, reference=model.mixture,
-        widths=model.widths, n_ok=int(ok.sum()), n_failed=int(failed.sum()),
-        n_collapsed=int(collapsed.sum()), n_relabelled=int(joined["relabelled"][ok].sum()),
+        widths=model.widths, **counts,
         ok_replicates=_frozen(np.flatnonzero(ok)), weights=_frozen(w), means=_frozen(m),
         sds=_frozen(s), cut_points=_frozen(cuts),
         weight_interval=_frozen(percentile_interval(w, level)),
@@ -340,7 +340,7 @@ _PATH_WORDS = {
 }
 
 
-def _notes(plan, replicates, n_ok, n_failed, n_collapsed, n_relabelled, missing, level):
+def _notes(plan, replicates, *, n_ok, n_failed, n_collapsed, n_relabelled, missing, level):
     how = "Resampling" if plan.method == "resample" else "Parametric bootstrap"
     notes = [f"{how}: " + _PATH_WORDS[plan.path].format(size=plan.support_size) + "."]
     if n_failed or n_collapsed:

@@ -2,7 +2,9 @@
 
 The restarts of one model are fitted side by side: parameters are arrays of
 shape ``(r, k)`` (one row per restart) and every E-step evaluates all active
-restarts on the data in one vectorised pass, in log space.
+restarts on the data in one vectorised pass, in log space.  Rows may also
+carry their own counts or values, shape ``(r, n)``: a batch of bootstrap
+replicates is fitted the same way.
 
 Acceleration is SQUAREM (Varadhan & Roland 2008, Scand. J. Statist. 35:335-353,
 scheme S3) on the unconstrained parameters (log weights, means, log variances)

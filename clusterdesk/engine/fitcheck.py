@@ -20,6 +20,7 @@ from __future__ import annotations
 import dataclasses
 import functools
 import math
+import numbers
 from dataclasses import dataclass
 
 import numpy as np
@@ -256,7 +257,8 @@ def fit_check_bootstrap(values, model: FittedModel, *, counts=None, replicates=9
     """
     if not isinstance(model, FittedModel):
         raise InputError(f"fit_check_bootstrap() needs a fitted model; got {type(model).__name__}.")
-    if isinstance(replicates, bool) or not isinstance(replicates, int) or not 19 <= replicates <= 100_000:
+    if (isinstance(replicates, bool) or not isinstance(replicates, numbers.Integral)
+            or not 19 <= replicates <= 100_000):
         raise InputError(f"replicates must be a whole number from 19 to 100000; got {replicates!r}.")
     seed, workers = check_seed(seed), check_workers(workers)
     sample = prepare_sample(values, counts)
@@ -270,4 +272,5 @@ def fit_check_bootstrap(values, model: FittedModel, *, counts=None, replicates=9
     check = goodness_of_fit(model.mixture, values, counts)
     check = dataclasses.replace(check, bootstrap_p_value=float(p_value),
                                 bootstrap_replicates=int(replicates))
+    # Replicates whose refit failed or collapsed stay in: they are part of the procedure.
     return dataclasses.replace(check, verdict=verdict(check))

@@ -31,7 +31,10 @@ from .validation import Sample, check_component_range, check_widths, prepare_sam
 __all__ = ["LikelihoodRatioResult", "likelihood_ratio_test", "PURPOSE_TEST"]
 
 PURPOSE_TEST = 0x5EED03
-_BATCH = 8  # simulated samples per batch: fixed, so results do not depend on the workers
+# Samples per batch: about a second of work, at most 8. Each sample has its own
+# stream and its own fits, so the batching never changes the result.
+_MAX_BATCH = 8
+_BATCH_SECONDS = 1.0
 MIN_REPLICATES = 19
 # Worker processes take about a second to start; below this much serial work they do not pay.
 _PROCESS_WORTH_SECONDS = 3.0
@@ -182,13 +185,14 @@ def likelihood_ratio_test(values, k, *, counts=None, widths="separate", replicat
     null = fit_model(sample, k, widths, model_rng(seed, k, widths), settings, cancel)
     alternative = fit_model(sample, k + 1, widths, model_rng(seed, k + 1, widths), settings, cancel)
     # The observed fits forecast the cost of each simulated pair; only speed depends on it.
-    forecast = replicates * (time.perf_counter() - started)
-    processes = workers > 1 and forecast > _PROCESS_WORTH_SECONDS
+    per_sample = time.perf_counter() - started
+    processes = workers > 1 and replicates * per_sample > _PROCESS_WORTH_SECONDS
+    batch = int(min(_MAX_BATCH, max(1, _BATCH_SECONDS // max(per_sample, 1e-9))))
     step = detect_grid_step(sample.values)
     grid = None if step is None else (float(sample.values[0]), step)
     task = functools.partial(_batch_task, null, int(round(sample.n)), grid, k, widths, settings,
                              seed, cancel=None if processes else cancel)
-    parts = run_batches(task, index_batches(replicates, _BATCH), workers=workers,
+    parts = run_batches(task, index_batches(replicates, batch), workers=workers,
                         progress=progress, cancel=cancel, what="likelihood-ratio test",
                         processes=processes)
     simulated, collapsed, unconverged = (np.concatenate(a) for a in zip(*parts))

@@ -176,14 +176,27 @@ def plan_replicates(sample: Sample, model, method: str, seed: int,
                   settings=settings, grid_origin=float(data.x[0]))
     min_sd = float(np.sqrt(reference[2].min()))
     if method == "resample":
-        if sample.n_distinct <= settings.bin_above:
-            support, counts = _distinct(data.x, data.c)
-            return ReplicatePlan(path="values", support=support, probabilities=counts / counts.sum(),
-                                 var_floor=data.var_floor, grid_step=None, **common)
-        edges = _edges(data.x[0], data.x[-1], min_sd, settings)
-        counts = np.histogram(data.x, bins=edges, weights=data.c)[0]
-        return _binned_plan(edges, counts, data.var_floor, common)
-    ref_mix = _mixture(reference)
+        return _resample_plan(sample, data, min_sd, settings, common)
+    return _parametric_plan(sample, data, min_sd, settings, common)
+
+
+def _resample_plan(sample, data, min_sd, settings, common) -> ReplicatePlan:
+    """Counts over the distinct values, or over a fine histogram when there are many."""
+    if sample.n_distinct <= settings.bin_above:
+        support, counts = _distinct(data.x, data.c)
+        return ReplicatePlan(path="values", support=support, probabilities=counts / counts.sum(),
+                             var_floor=data.var_floor, grid_step=None, **common)
+    edges = _edges(data.x[0], data.x[-1], min_sd, settings)
+    counts = np.histogram(data.x, bins=edges, weights=data.c)[0]
+    return _binned_plan(edges, counts, data.var_floor, common)
+
+
+def _parametric_plan(sample, data, min_sd, settings, common) -> ReplicatePlan:
+    """Grid cells for rounded values, simulated values for small samples, else a fine histogram.
+
+    The support spans the data and the fit's central ``1 - 2e-3/n`` probability.
+    """
+    ref_mix = _mixture(common["reference"])
     tail = min(1e-3, 1e-3 / common["n"])
     lo = min(data.x[0], float(ref_mix.quantile(tail)))
     hi = max(data.x[-1], float(ref_mix.quantile(1.0 - tail)))

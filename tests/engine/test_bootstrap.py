@@ -39,6 +39,27 @@ def two_groups(seed: int, n: int = 300) -> np.ndarray:
     return np.concatenate([rng.normal(10.0, 1.0, int(0.4 * n)), rng.normal(15.0, 1.5, n - int(0.4 * n))])
 
 
+# ------------------------------------------------------ batched E-step
+def test_per_row_counts_and_values_match_one_row_at_a_time():
+    # Reference: the E-step with one shared count vector (the established
+    # behaviour), applied to each replicate's counts / values separately.
+    from clusterdesk.engine.em import e_step
+    rng = np.random.default_rng(14)
+    x = np.sort(rng.normal(0.0, 1.0, 3000))
+    counts = rng.multinomial(3000, np.full(3000, 1 / 3000), size=5).astype(float)
+    logw = np.log(np.tile([0.3, 0.7], (5, 1)))
+    mu = np.tile([-0.5, 0.6], (5, 1)) + rng.normal(0, 0.1, (5, 2))
+    var = np.tile([0.5, 0.8], (5, 1))
+    values = rng.normal(0.0, 1.0, (5, 3000))
+    for xs, cs in ((x, counts), (values, np.ones(3000)), (values, counts)):
+        batched = e_step(xs, cs, logw, mu, var)
+        for b in range(5):
+            one = e_step(xs[b] if xs.ndim == 2 else xs, cs[b] if cs.ndim == 2 else cs,
+                         logw[b:b + 1], mu[b:b + 1], var[b:b + 1])
+            for name in ("loglik", "nk", "sd", "sdd"):
+                np.testing.assert_allclose(getattr(batched, name)[b], getattr(one, name)[0], rtol=1e-12)
+
+
 # ---------------------------------------------------------------- coverage
 @pytest.mark.slow
 def test_percentile_intervals_cover_true_means_at_nominal_rate():
@@ -252,6 +273,19 @@ def test_likelihood_ratio_test_is_reproducible_and_worker_independent():
     np.testing.assert_array_equal(one.simulated, two.simulated)
     assert one.p_value == two.p_value
     assert not np.array_equal(one.simulated, other.simulated)
+
+
+def test_likelihood_ratio_test_gives_the_same_result_on_worker_processes(monkeypatch):
+    # Long tests run their simulated samples on processes; force that path here.
+    from clusterdesk.engine import lrtest
+    x = np.random.default_rng(43).normal(0.0, 1.0, 60)
+    serial = clusterdesk.likelihood_ratio_test(x, 1, replicates=19, seed=2, workers=1)
+    monkeypatch.setattr(lrtest, "_PROCESS_WORTH_SECONDS", 0.0)
+    calls = []
+    pooled = clusterdesk.likelihood_ratio_test(x, 1, replicates=19, seed=2, workers=2,
+                                               progress=lambda done, total: calls.append(done))
+    np.testing.assert_array_equal(serial.simulated, pooled.simulated)
+    assert calls[-1] == 19
 
 
 @pytest.mark.parametrize("kwargs", [dict(k=0), dict(k=40), dict(replicates=5), dict(widths="both"),

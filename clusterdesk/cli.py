@@ -112,6 +112,9 @@ def build_parser() -> argparse.ArgumentParser:
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
 
     sub.add_parser("demo", help="a demonstration scan of a synthetic sample, headless")
+    from .screen.cli import add_screen_parser
+
+    add_screen_parser(sub)
 
     cols = sub.add_parser("columns", help="list the columns of a file and what they hold")
     cols.add_argument("file")
@@ -244,7 +247,7 @@ def format_intervals(boot) -> str:
     return "\n".join(lines)
 
 
-_SUBCOMMANDS = ("fit", "columns", "demo")
+_SUBCOMMANDS = ("fit", "columns", "demo", "screen")
 
 
 def wants_window(argv) -> bool:
@@ -278,6 +281,10 @@ def main(argv=None) -> int:
     args = parser.parse_args(argv)
     out = sys.stdout
     try:
+        if args.command == "screen":
+            from .screen.cli import run_screen
+
+            return run_screen(args, out)
         if args.command == "fit":
             return run_fit(args, out)
         if args.command == "columns":

@@ -146,3 +146,17 @@ def test_fit_with_intervals_report_and_lr_test(tmp_path, capsys):
         assert lower <= float(row["mean"]) <= upper
         assert [lower, upper] == summary["intervals"]["mean"][j]  # CSV re-reads exactly
         assert 0.0 <= float(row["expected_misclassification"]) <= 1.0
+
+
+def test_screen_subcommand_summarises_every_column(tmp_path, capsys):
+    assert main(["screen", str(SAMPLES / "lake_net_lengths.csv"), "--kmax", "4",
+                 "--workers", "1", "--out", str(tmp_path)]) == 0
+    rows = read_csv(tmp_path / "summary.csv")
+    assert [r["column"] for r in rows] == ["fish_id", "station", "length_mm"]
+    length = rows[2]
+    assert length["status"] == "ok"
+    # The engine on the same column is the reference for the summary's best k.
+    values = np.loadtxt(SAMPLES / "lake_net_lengths.csv", delimiter=",", skiprows=1, usecols=2)
+    direct = clusterdesk.scan(values, kmin=1, kmax=4, widths="both")
+    assert int(length["best_k"]) == direct.best.k
+    assert (tmp_path / "overview.html").is_file()

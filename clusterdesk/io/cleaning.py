@@ -17,6 +17,7 @@ from typing import Callable
 import numpy as np
 
 from ..errors import InputError
+from ..grid import grid_step as detect_resolution  # the one implementation, shared with the engine
 from . import reasons as R
 from .numbers import ParsedColumn
 from .table import status_counts
@@ -25,8 +26,6 @@ __all__ = ["SCALES", "RowFates", "ReadSummary", "CleanResult", "clean_column", "
 
 #: Analysis scales: ``"linear"`` (as measured), ``"ln"`` (natural log), ``"log10"``.
 SCALES = ("linear", "ln", "log10")
-_MAX_DECIMALS = 8
-_BLOCK = 1 << 20
 _STRING_DTYPE = getattr(np.dtypes, "StringDType", None)  # numpy >= 2.0
 
 
@@ -42,15 +41,53 @@ def _readonly(array: np.ndarray) -> np.ndarray:
     return array
 
 
+def _line_array(lines: range) -> np.ndarray:
+    """Consecutive line numbers as int32 (int64 past 2**31 lines)."""
+    return np.arange(lines.start, lines.stop, dtype=np.int32 if lines.stop < np.iinfo(np.int32).max else np.int64)
+
+
+class _MadeOnFirstUse:
+    """A field of :class:`RowFates` given as an array, or as a recipe for one that is followed on first use.
+
+    ``make(row_fates, recipe)`` turns the stored recipe (anything but an
+    ndarray) into the array, which then replaces it (read-only).  Recipes
+    are plain values (a ``range``, None), so that RowFates still pickles.
+    """
+
+    def __init__(self, make: Callable):
+        self._make = make
+
+    def __set_name__(self, owner, name: str) -> None:
+        self._key = f"_{name}_stored"
+
+    def __get__(self, row_fates, owner=None):
+        if row_fates is None:
+            raise AttributeError(self._key)  # no default value for the dataclass field
+        stored = row_fates.__dict__[self._key]
+        if not isinstance(stored, np.ndarray):
+            stored = _readonly(self._make(row_fates, stored))
+            row_fates.__dict__[self._key] = stored
+        return stored
+
+    def __set__(self, row_fates, value) -> None:
+        row_fates.__dict__[self._key] = value
+
+
 @dataclass(frozen=True)
 class RowFates:
     """What happened to each data row, stored column by column.
+
+    ``line`` and ``kept`` may be made on first use (then kept): consecutive
+    line numbers are stored as a ``range``, and ``kept`` follows from
+    ``reason``, so that reading ten million rows does not pay for them.
 
     Attributes
     ----------
     line : ndarray of int32 (int64 past 2**31 lines), shape (n_rows,)
         1-based physical line in the file (text) or sheet row (XLSX).
+        Constructed from an array, or from a ``range`` of consecutive lines.
     kept : ndarray of bool, shape (n_rows,)
+        Constructed from an array, or from None (``reason == 0``).
     reason : ndarray of uint8, shape (n_rows,)
         0 when kept, else a code of :mod:`clusterdesk.io.reasons`; see
         :meth:`reason_words`.
@@ -66,8 +103,8 @@ class RowFates:
         The value cell's text of those rows, as written (stripped).
     """
 
-    line: np.ndarray
-    kept: np.ndarray
+    line: np.ndarray = _MadeOnFirstUse(lambda rows, lines: _line_array(lines))
+    kept: np.ndarray = _MadeOnFirstUse(lambda rows, _: rows.reason == R.KEPT)
     reason: np.ndarray
     value: np.ndarray
     count: np.ndarray | None
@@ -75,7 +112,7 @@ class RowFates:
     raw_text: np.ndarray
 
     def __len__(self) -> int:
-        return int(self.line.size)
+        return int(self.reason.size)
 
     @cached_property
     def position(self) -> np.ndarray:
@@ -214,8 +251,9 @@ def clean_column(
     ----------
     parsed : ParsedColumn
         The value column, shape (n_rows,).
-    lines : ndarray of int, shape (n_rows,)
-        Line (or sheet row) of each row.
+    lines : ndarray of int, shape (n_rows,), or range
+        Line (or sheet row) of each row; a ``range`` for consecutive lines
+        (made into an array on first use of ``RowFates.line``).
     raw : callable
         ``raw(positions) -> list of str``: the value cells' text at positions.
     counts : ParsedColumn, optional
@@ -249,13 +287,18 @@ def clean_column(
         reason[(reason == R.KEPT) & (value > high)] = R.OUT_OF_RANGE
     if scale != "linear":
         reason[(reason == R.KEPT) & (value <= 0)] = R.NOT_POSITIVE
-    kept = reason == R.KEPT
-    n_kept = int(np.count_nonzero(kept))
-    raw_rows = np.flatnonzero(~kept) if n_kept < value.size else np.zeros(0, dtype=np.int64)
+    tallies = status_counts(reason)
+    n_kept = int(tallies[R.KEPT])
+    if n_kept == value.size:
+        kept = None  # every row kept: RowFates makes the mask on first use
+        raw_rows = np.zeros(0, dtype=np.int64)
+    else:
+        kept = reason == R.KEPT
+        raw_rows = np.flatnonzero(~kept)
     raw_text = _text_array(raw(raw_rows))
     if release is not None:
         release()
-    if n_kept == value.size:
+    if kept is None:
         values = value
         kept_counts = count_values
     else:
@@ -267,7 +310,6 @@ def clean_column(
         fit_values = np.log10(values)
     else:
         fit_values = values
-    tallies = status_counts(reason)
     excluded = {R.REASON_WORDS[c]: int(tallies[c]) for c in range(1, len(R.REASON_WORDS)) if tallies[c]}
     summary = ReadSummary(
         rows_read=int(value.size),
@@ -276,68 +318,10 @@ def clean_column(
         total_count=None if kept_counts is None else float(kept_counts.sum()),
     )
     for array in (value, reason, kept, lines, values, fit_values):
-        _readonly(array)
+        if isinstance(array, np.ndarray):  # kept may be None, lines a range
+            _readonly(array)
     if count_values is not None:
         _readonly(count_values)
         _readonly(kept_counts)
     rows = RowFates(lines, kept, reason, value, count_values, _readonly(raw_rows), _readonly(raw_text))
     return CleanResult(values, fit_values, kept_counts, rows, summary)
-
-
-def _on_grid(x: np.ndarray, scale: float, largest: float) -> bool:
-    """Tell whether every value times ``scale`` is within 1e-6 (plus float noise) of an integer."""
-    tolerance = 1e-6 + 4e-16 * largest * scale
-    for a in range(0, x.size, _BLOCK):
-        s = x[a : a + _BLOCK] * scale
-        s -= np.rint(s)
-        if s.max() > tolerance or s.min() < -tolerance:
-            return False
-    return True
-
-
-def detect_resolution(values: np.ndarray) -> float | None:
-    """Find the step of the grid the values sit on (the measurement resolution).
-
-    The values are taken to be written with at most eight decimals; the step
-    is the greatest common divisor of their differences on that decimal
-    grid, so values in half units give 0.5 and whole numbers give 1 (or 2,
-    5, 10 ... when all values share that factor).  Float noise such as
-    ``0.30000000000000004`` is tolerated (1e-6 of a grid step).
-
-    Parameters
-    ----------
-    values : ndarray of float64, shape (n,)
-        Finite values on the original scale.
-
-    Returns
-    -------
-    float or None
-        The step, or None for continuous data (more than eight decimals),
-        fewer than two distinct values, or no values.
-    """
-    x = np.asarray(values, dtype=np.float64)
-    if x.size < 2:
-        return None
-    stride = max(1, x.size // 20000)
-    sample = x[::stride]
-    largest = max(abs(float(x.min())), abs(float(x.max())))
-    decimals = next((k for k in range(_MAX_DECIMALS + 1) if _on_grid(sample, 10.0**k, largest)), None)
-    if decimals is None:
-        return None
-    while decimals <= _MAX_DECIMALS and not _on_grid(x, 10.0**decimals, largest):
-        decimals += 1
-    if decimals > _MAX_DECIMALS:
-        return None
-    scale = 10.0**decimals
-    smallest = np.rint(x.min() * scale)
-    if np.abs(np.rint(x.max() * scale) - smallest) >= 2.0**62:
-        return None
-    step = 0
-    for a in range(0, x.size, _BLOCK):
-        q = np.rint(x[a : a + _BLOCK] * scale) - smallest
-        step = int(np.gcd.reduce(q.astype(np.int64), initial=step))
-        if step == 1:
-            break
-    if step == 0:
-        return None
-    return round(step / scale, decimals)

@@ -36,7 +36,7 @@ from .decoding import decode
 from .delimited import DELIMITER_NAMES, SAMPLE_LINES, is_comment, iter_records, split_line, split_lines
 from .fastparse import parse_block_fields, split_block
 from .numbers import STRIP_CHARS, ParsedColumn, finish_column
-from .pandas_column import read_plain_column
+from .pandas_column import OnDisk, read_plain_column
 from .table import TableInfo, first_values
 from .text_table import LAYOUT_SAMPLE, detect_text_layout, extra_cells, text_notes
 
@@ -76,7 +76,7 @@ class FastTable:
 
     @property
     def n_rows(self) -> int:
-        return int(self.lines.size)
+        return len(self.lines)
 
     def parsed(self, j: int) -> ParsedColumn:
         return self._parsed[j]
@@ -94,7 +94,10 @@ class FastTable:
         out: list[str] = [""] * positions.size
         if positions.size == 0:
             return out
-        wanted = self.lines[positions].astype(np.int64) - self._body_line  # 0-based line in the body
+        if isinstance(self.lines, range):  # consecutive lines from lines.start
+            wanted = positions + (self.lines.start - self._body_line)
+        else:
+            wanted = self.lines[positions].astype(np.int64) - self._body_line  # 0-based line in the body
         order = np.argsort(wanted, kind="stable")
         body = self._body
         k = 0
@@ -138,6 +141,18 @@ def _line_numbers(numbers: np.ndarray) -> np.ndarray:
     return numbers.astype(np.int32, copy=False) if numbers.size and numbers[-1] < 2**31 - 1 else numbers
 
 
+def _only_crlf(data: bytes) -> bool:
+    """Tell whether every ``\\r`` of ``data`` starts a ``\\r\\n`` (numpy, a block at a time: no count of the whole file)."""
+    buf = np.frombuffer(data, dtype=np.uint8)
+    for a in range(0, buf.size, _CHUNK):
+        at = np.flatnonzero(buf[a : a + _CHUNK] == 13)
+        if at.size:
+            at += a + 1
+            if at[-1] >= buf.size or not np.all(buf.take(at) == 10):
+                return False
+    return True
+
+
 def _head(data: bytes, offset: int) -> bytes:
     """The first lines of the file: at least 4000 lines and 256 KiB, ending at a line break."""
     pos = offset
@@ -152,7 +167,9 @@ def _head(data: bytes, offset: int) -> bytes:
     return data[offset:pos]
 
 
-def read_fast_table(data: bytes, where: str, *, delimiter="auto", header: bool | None = None) -> FastTable | None:
+def read_fast_table(
+    data: bytes, where: str, *, delimiter="auto", header: bool | None = None, on_disk: OnDisk | None = None
+) -> FastTable | None:
     """Read a large plain text table with numpy, or decline.
 
     Parameters
@@ -163,6 +180,8 @@ def read_fast_table(data: bytes, where: str, *, delimiter="auto", header: bool |
         The file's name, for messages.
     delimiter, header
         As for :func:`~.text_table.read_text_table`.
+    on_disk : OnDisk, optional
+        The file the bytes were read from (see :func:`~.pandas_column.read_plain_column`).
 
     Returns
     -------
@@ -189,7 +208,14 @@ def read_fast_table(data: bytes, where: str, *, delimiter="auto", header: bool |
     offset = bom
     for _ in range(start_line - 1):
         offset = data.index(b"\n", offset) + 1
-    if data.find(b'"', offset) >= 0 or (b"\r" in data and data.count(b"\r") != data.count(b"\r\n")):
+    crlf = b"\r" in data
+    if crlf and not _only_crlf(data):
+        return None
+    # Quotes send the file to the per-cell reader.  In a one-column file they are
+    # looked for after pandas: if it read every line of the body as a number,
+    # none of them holds one, and only the tail is left to look at.
+    one_column = found.delimiter is None
+    if not one_column and data.find(b'"', offset) >= 0:
         return None
     trimmed = _trim_tail(data, offset, found.delimiter, where)
     if trimmed is None:
@@ -198,12 +224,17 @@ def read_fast_table(data: bytes, where: str, *, delimiter="auto", header: bool |
     body = _Span(data, offset, end)
     n_columns = len(found.names)
     plain = None
-    if found.delimiter is None:
-        plain = read_plain_column(data, offset, end, lines[start_line - 1 : start_line + 49])
+    if one_column:
+        first = lines[start_line - 1 : start_line + 49]
+        plain = read_plain_column(data, offset, end, first, crlf=crlf, on_disk=on_disk, skip_lines=start_line - 1)
+        if data.find(b'"', offset if plain is None else end) >= 0:
+            return None
     if plain is not None:
         columns = [_Column(0)]
-        columns[0].values, columns[0].status, columns[0].plain_point = plain
-        n_lines = columns[0].n_plain = plain[0].size
+        column = columns[0]
+        column.values, column.status = plain.values, plain.status
+        column.plain_point, column.plain_ambiguous = plain.plain_point, plain.plain_ambiguous
+        n_lines = column.n_plain = plain.values.size
         comment_rows, too_long = [], []
     else:
         bounds, n_lines = _block_bounds(body)
@@ -212,11 +243,11 @@ def read_fast_table(data: bytes, where: str, *, delimiter="auto", header: bool |
         if outcome is None:
             return None
         comment_rows, too_long = outcome
-    numbers = np.arange(start_line, start_line + n_lines, dtype=np.int64 if start_line + n_lines >= 2**31 - 1 else np.int32)
+    numbers = range(start_line, start_line + n_lines)  # made into an array only where rows were dropped, or on first use
     if comment_rows:
         keep = np.ones(n_lines, dtype=bool)
         keep[comment_rows] = False
-        numbers = numbers[keep]
+        numbers = _line_numbers(np.arange(start_line, start_line + n_lines, dtype=np.int64)[keep])
         remap = np.cumsum(keep) - 1
         for c in columns:
             c.values, c.status = c.values[keep], c.status[keep]
@@ -239,7 +270,7 @@ def read_fast_table(data: bytes, where: str, *, delimiter="auto", header: bool |
         parser="vectorised" if plain is None else "vectorised (pandas C parser)",
         notes=text_notes(found, len(too_long)),
     )
-    return FastTable(found.names, _line_numbers(numbers), parsed, info, body, start_line, found.delimiter)
+    return FastTable(found.names, numbers, parsed, info, body, start_line, found.delimiter)
 
 
 class _Span:

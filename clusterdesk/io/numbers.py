@@ -29,7 +29,7 @@ import numpy as np
 
 from . import reasons as R
 
-__all__ = ["NumberStyle", "ParsedColumn", "parse_column", "finish_column", "looks_numeric", "clean_text", "grouped_decimal_comma"]
+__all__ = ["NumberStyle", "ParsedColumn", "parse_column", "finish_column", "looks_numeric", "clean_text", "grouped_decimal_comma", "point_kind"]
 
 #: Characters stripped from both ends of a cell: spaces, tabs, no-break
 #: spaces (U+00A0, U+202F, U+2007), thin space, zero-width space, BOM.
@@ -252,6 +252,24 @@ def _plain_kind(text: str) -> int:
     if _AMBIGUOUS_POINT.fullmatch(text):
         return AMBIGUOUS_POINT
     return POINT
+
+
+def point_kind(text: str) -> int:
+    """How the ``"."`` of a cleaned cell counts as evidence for the decimal mark, as :func:`parse_column` counts it.
+
+    Parameters
+    ----------
+    text : str
+        A stripped cell.
+
+    Returns
+    -------
+    int
+        ``POINT`` (a plain number whose point is surely a decimal point:
+        ``0.5``, ``12.75``, ``1.5e3``), ``AMBIGUOUS_POINT`` (``1.234``) or
+        ``NEUTRAL`` (no point, or not a plain number).
+    """
+    return _plain_kind(text) if _PLAIN.fullmatch(text) else NEUTRAL
 
 
 def parse_column(cells: Sequence) -> ParsedColumn:

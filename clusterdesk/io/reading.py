@@ -15,6 +15,7 @@ from . import reasons as R
 from .cleaning import ReadSummary, RowFates, check_scale_and_range, clean_column, detect_resolution
 from .decoding import binary_kind, decode, is_zip
 from .fastpath import read_fast_table
+from .pandas_column import OnDisk
 from .table import ColumnSummary, choose_column, summarize
 from .text_table import read_text_table
 from .xlsx import read_xlsx_table, workbook_sheet_names
@@ -151,6 +152,7 @@ class _Source:
     where: str
     label: str
     suffix: str
+    on_disk: OnDisk | None = None
 
 
 def _load(source, text) -> _Source:
@@ -173,10 +175,11 @@ def _load(source, text) -> _Source:
     if path.is_dir():
         raise InputError(f"{str(path)!r} is a folder, not a file; choose a CSV, text or XLSX file inside it.")
     try:
+        stamp = OnDisk.stamp_of(path)  # before reading: a change while the file is read shows
         data = path.read_bytes()
     except OSError as exc:
         raise InputError(f"{where} could not be opened ({exc.strerror or exc}); check that it is readable.") from None
-    return _Source(data, None, where, str(source), path.suffix.lower())
+    return _Source(data, None, where, str(source), path.suffix.lower(), OnDisk(str(path), stamp))
 
 
 class _Digest(threading.Thread):
@@ -218,7 +221,7 @@ def _read_table(src: _Source, *, sheet, delimiter, header, parser):
         notes = ()
     table = None
     if parser == "vectorised" or (parser == "auto" and len(data) >= FAST_PATH_BYTES):
-        table = read_fast_table(data, src.where, delimiter=delimiter, header=header)
+        table = read_fast_table(data, src.where, delimiter=delimiter, header=header, on_disk=src.on_disk)
     if table is None:
         decoded = decode(data, src.where)
         table = read_text_table(

@@ -212,8 +212,9 @@ def status_counts(status: np.ndarray) -> np.ndarray:
     if status.size < 100_000:
         return np.bincount(status, minlength=len(R.REASON_WORDS))
     counts = np.zeros(len(R.REASON_WORDS), dtype=np.int64)
-    left = status.size
-    for code in range(len(R.REASON_WORDS)):
+    left = int(np.count_nonzero(status))  # rows not kept (KEPT is 0): one pass, no temporary
+    counts[R.KEPT] = status.size - left
+    for code in range(1, len(R.REASON_WORDS)):
         if not left:
             break
         counts[code] = np.count_nonzero(status == code)

@@ -2,12 +2,16 @@
 
 from __future__ import annotations
 
+import pickle
+
 import numpy as np
 import pytest
 
 from clusterdesk.errors import InputError
 from clusterdesk.io import REASON_WORDS, detect_resolution, read_measurements, reason_words
 from clusterdesk.io import reasons as R
+from clusterdesk.io.cleaning import clean_column
+from clusterdesk.io.numbers import parse_column
 
 
 def accounted(m) -> bool:
@@ -78,6 +82,22 @@ def test_linear_scale_shares_the_array_and_arrays_are_read_only():
         m.values[0] = 5.0
     with pytest.raises(ValueError):
         m.rows.kept[0] = False
+
+
+def test_row_fates_made_on_first_use_equal_the_stored_ones():
+    # Consecutive lines given as a range, and "every row kept", are made into
+    # arrays on first use; the reference is the same rows given as arrays.
+    parsed = parse_column(["1.5", "2.5", "4"])
+    lazy = clean_column(parsed, range(2, 5), lambda positions: [])
+    stored = clean_column(parse_column(["1.5", "2.5", "4"]), np.array([2, 3, 4], dtype=np.int32), lambda positions: [])
+    for name in ("line", "kept", "reason", "position"):
+        made, given = getattr(lazy.rows, name), getattr(stored.rows, name)
+        assert made.dtype == given.dtype and made.tolist() == given.tolist()
+        with pytest.raises(ValueError):
+            made[0] = 0
+    assert len(lazy.rows) == 3 and lazy.rows.kept.all()
+    again = pickle.loads(pickle.dumps(clean_column(parse_column(["7", "x"]), range(10, 12), lambda positions: ["x"])))
+    assert again.rows.line.tolist() == [10, 11] and again.rows.kept.tolist() == [True, False]
 
 
 @pytest.mark.parametrize(

@@ -13,10 +13,12 @@ This module is pure numpy and sits at the bottom of the package, so that
 The values are taken to be written with a few decimals: the step is found on
 the decimal grid of ``10**-k`` for the smallest ``k`` that holds every value
 (up to float noise), as the greatest common divisor of the values' distances
-on that grid.  The work is one pass over the values for their range and one
-for the check; the divisor is first taken from an evenly spread sample and
-then confirmed (or lowered) over all values, so ten million values cost a
-few vectorised passes, never a sort.
+on that grid.  In the usual case the work is one pass over the values: an
+evenly spread sample fixes the decimals and shows a divisor of 1, and the
+pass checks every value against that grid, gathering on the way the range
+that the float-noise allowance depends on.  Otherwise the range is found
+first, and the divisor taken from the sample is confirmed (or lowered) over
+all values.  Ten million values cost a few vectorised passes, never a sort.
 """
 
 from __future__ import annotations
@@ -180,7 +182,8 @@ def grid_step(values) -> float | None:
     as ``0.30000000000000004`` is tolerated (1e-6 of a grid step, plus the
     float rounding of the largest value).  At most eight decimals are looked
     for (more when every value is below 1: eight beyond the leading digit of
-    the largest, so 5e-9 steps are found in values near 1e-8).
+    the largest, so 5e-10 steps are found in values near 1e-8); a grid so
+    coarse that every value sits on one of its points gives way to finer ones.
 
     Parameters
     ----------

@@ -74,7 +74,7 @@ def test_two_distinct_values_give_their_distance():
 
 
 def test_small_values_get_as_many_decimals_beyond_their_leading_digit():
-    # Values near 1e-8 recorded to 5e-9 (metres to five nanometres): eight
+    # Values near 4e-8 recorded to 5e-10 (metres to half a nanometre): eight
     # decimals would see no grid; the step is found beyond the leading digit.
     rng = np.random.default_rng(7)
     x = np.round(rng.normal(40, 8, 2000) / 0.5) * 0.5 * 1e-9
@@ -105,3 +105,13 @@ def test_a_large_value_outside_the_sample_widens_the_noise_allowance():
     y = x.copy()
     y[[0, 1]] = y[[1, 0]]
     assert grid_step(x) == grid_step(y) == 0.001
+
+
+def test_a_grid_too_coarse_to_tell_the_values_apart_gives_way_to_a_finer_one():
+    # 2.0000001 is within 1e-6 of the whole-number grid point 2, as 2.0 is:
+    # both sit on one point, so the next grids are tried (reference: exact
+    # arithmetic on the texts, seven decimals).
+    assert grid_step([2.0, 2.0000001, 2.0000003]) == exact_step(["2.0", "2.0000001", "2.0000003"]) == 1e-7
+    # Near 1e14 float64 is spaced 1/64 apart (IEEE 754): no finer grid is
+    # trusted where float rounding is that coarse.
+    assert grid_step(1e14 + np.array([0.0, 1 / 64, 2 / 64])) is None

@@ -5,7 +5,8 @@ with a decimal point, lines ended by ``\\n`` or ``\\r\\n``.  This reader works
 on the bytes with numpy, one megabyte at a time on two threads (numpy releases
 the GIL), and never makes a Python object per row.  A one-column file that is
 plain from end to end goes to pandas' C parser instead where pandas is
-installed (:mod:`.pandas_column`).
+installed (:mod:`.pandas_column`); a large one is first offered to
+:mod:`.large_file`, which lets pandas read it from its path.
 
 The numpy kernels (:mod:`.fastparse`) convert each field of the form
 ``[+-]digits[.digits]`` with at most 15 digits exactly: its digits form an
@@ -36,11 +37,11 @@ from .decoding import decode
 from .delimited import DELIMITER_NAMES, SAMPLE_LINES, is_comment, iter_records, split_line, split_lines
 from .fastparse import parse_block_fields, split_block
 from .numbers import STRIP_CHARS, ParsedColumn, finish_column
-from .pandas_column import OnDisk, read_plain_column
+from .pandas_column import read_plain_column
 from .table import TableInfo, first_values
 from .text_table import LAYOUT_SAMPLE, detect_text_layout, extra_cells, text_notes
 
-__all__ = ["FastTable", "read_fast_table"]
+__all__ = ["FastTable", "read_fast_table", "head_layout", "table_info"]
 
 _CHUNK = 1 << 20  # bytes per block
 _HEAD_LINES = 2 * LAYOUT_SAMPLE
@@ -167,9 +168,7 @@ def _head(data: bytes, offset: int) -> bytes:
     return data[offset:pos]
 
 
-def read_fast_table(
-    data: bytes, where: str, *, delimiter="auto", header: bool | None = None, on_disk: OnDisk | None = None
-) -> FastTable | None:
+def read_fast_table(data: bytes, where: str, *, delimiter="auto", header: bool | None = None) -> FastTable | None:
     """Read a large plain text table with numpy, or decline.
 
     Parameters
@@ -180,8 +179,6 @@ def read_fast_table(
         The file's name, for messages.
     delimiter, header
         As for :func:`~.text_table.read_text_table`.
-    on_disk : OnDisk, optional
-        The file the bytes were read from (see :func:`~.pandas_column.read_plain_column`).
 
     Returns
     -------
@@ -193,21 +190,11 @@ def read_fast_table(
     FileFormatError
         As the per-cell reader would (binary data, empty, header only).
     """
-    bom = 3 if data.startswith(codecs.BOM_UTF8) else 0
-    head_bytes = _head(data, bom)
-    decoded = decode(data[:bom] + head_bytes, where)
-    if decoded.encoding not in ("utf-8", "utf-8-sig") or not decoded.text.strip():
+    head = head_layout(data, len(data), where, delimiter=delimiter, header=header)
+    if head is None:
         return None
-    lines = split_lines(decoded.text)
-    if len(head_bytes) + bom < len(data) and not _covers_samples(lines):
-        return None  # the head must hold every line the per-cell reader samples
-    found = detect_text_layout(lines, where, delimiter=delimiter, header=header)
-    if found.delimiter == " " or len(found.names) > _MAX_COLUMNS:
-        return None
+    decoded, lines, found, offset = head
     start_line = found.data_start_line
-    offset = bom
-    for _ in range(start_line - 1):
-        offset = data.index(b"\n", offset) + 1
     crlf = b"\r" in data
     if crlf and not _only_crlf(data):
         return None
@@ -225,8 +212,7 @@ def read_fast_table(
     n_columns = len(found.names)
     plain = None
     if one_column:
-        first = lines[start_line - 1 : start_line + 49]
-        plain = read_plain_column(data, offset, end, first, crlf=crlf, on_disk=on_disk, skip_lines=start_line - 1)
+        plain = read_plain_column(data, offset, end, lines[start_line - 1 : start_line + 49], crlf=crlf)
         if data.find(b'"', offset if plain is None else end) >= 0:
             return None
     if plain is not None:
@@ -258,7 +244,58 @@ def read_fast_table(
         if column.style.decimal_mark == "," and c.plain_point + c.plain_ambiguous:
             return None
         parsed.append(column)
-    info = TableInfo(
+    parser = "vectorised" if plain is None else "vectorised (pandas C parser)"
+    info = table_info(decoded, lines, found, len(comment_rows) + tail_comments, parser, len(too_long))
+    return FastTable(found.names, numbers, parsed, info, body, start_line, found.delimiter)
+
+
+def head_layout(data: bytes, size: int, where: str, *, delimiter="auto", header: bool | None = None):
+    """The layout of a text file from its first bytes, as the per-cell reader finds it, or None.
+
+    Parameters
+    ----------
+    data : bytes
+        The file, or its first bytes (then a layout is given only if they
+        hold every line the per-cell reader samples, ending at a line break).
+    size : int
+        The file's size in bytes.
+    where, delimiter, header
+        As for :func:`read_fast_table`.
+
+    Returns
+    -------
+    (decoded, lines, found, offset) or None
+        The decoded head, its lines, the :class:`~.text_table.TextLayout`,
+        and the byte offset of the first data row.  None when the file does
+        not suit the vectorised reader (not UTF-8, runs of spaces, too many
+        columns, a head that does not hold the samples).
+    """
+    bom = 3 if data.startswith(codecs.BOM_UTF8) else 0
+    head_bytes = _head(data, bom)
+    if len(data) < size and len(head_bytes) + bom == len(data):
+        return None  # the bytes given end before the head does
+    decoded = decode(data[:bom] + head_bytes, where)
+    if decoded.encoding not in ("utf-8", "utf-8-sig") or not decoded.text.strip():
+        return None
+    lines = split_lines(decoded.text)
+    if len(head_bytes) + bom < size and not _covers_samples(lines):
+        return None  # the head must hold every line the per-cell reader samples
+    found = detect_text_layout(lines, where, delimiter=delimiter, header=header)
+    if found.delimiter == " " or len(found.names) > _MAX_COLUMNS:
+        return None
+    offset = bom
+    for _ in range(found.data_start_line - 1):
+        offset = data.index(b"\n", offset) + 1
+    return decoded, lines, found, offset
+
+
+def table_info(decoded, lines: list[str], found, more_comments: int, parser: str, too_long: int) -> TableInfo:
+    """What was read, for a table whose layout :func:`head_layout` found.
+
+    ``more_comments`` counts the comment lines below the first data row.
+    """
+    start_line = found.data_start_line
+    return TableInfo(
         reader="delimited text" if found.delimiter is not None else "one value per line",
         encoding=decoded.encoding,
         encoding_fallback=False,
@@ -266,11 +303,10 @@ def read_fast_table(
         header_line=found.header_line,
         preamble_lines=tuple(found.records[i][0] for i in found.layout.preamble),
         preamble=tuple(lines[found.records[i][0] - 1] for i in found.layout.preamble),
-        comment_lines=sum(1 for line in lines[: start_line - 1] if is_comment(line)) + len(comment_rows) + tail_comments,
-        parser="vectorised" if plain is None else "vectorised (pandas C parser)",
-        notes=text_notes(found, len(too_long)),
+        comment_lines=sum(1 for line in lines[: start_line - 1] if is_comment(line)) + more_comments,
+        parser=parser,
+        notes=text_notes(found, too_long),
     )
-    return FastTable(found.names, numbers, parsed, info, body, start_line, found.delimiter)
 
 
 class _Span:

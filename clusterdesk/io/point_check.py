@@ -33,11 +33,6 @@ __all__ = ["point_evidence"]
 _LINES = 1 << 16  # most lines per vectorised step
 _LINES_AFTER_ODD = 1 << 10  # lines in the step after a line read as text (then doubled)
 _MOST_EXAMINED = 256  # lines read as text before giving up (the numpy kernels then count exactly)
-_EDGES = np.array([1.0, 10.0, 100.0, 1000.0])
-#: Length of "d.ddd", "dd.ddd", "ddd.ddd" by the position of |value| among _EDGES (0 = not such a value).
-_TEXT_LENGTH = np.array([0, 5, 6, 7, 0], dtype=np.int64)
-_DIGITS = np.zeros(256, dtype=bool)
-_DIGITS[ord("0") : ord("9") + 1] = True
 
 
 def _like_three_decimals(buf: np.ndarray, values: np.ndarray, pos: int, end: int, eol: int):
@@ -47,11 +42,12 @@ def _like_three_decimals(buf: np.ndarray, values: np.ndarray, pos: int, end: int
     (``\\n``, or the ``\\r`` of ``\\r\\n``) if every line before it has the
     form; ``ok`` is True up to the first line that does not.
     """
-    code = np.searchsorted(_EDGES, np.abs(values), side="right")
-    length = _TEXT_LENGTH.take(code)
-    ok = length > 0
+    size = np.abs(values)
+    ok = size >= 1.0  # one to three integer digits, the first not 0
+    ok &= size < 1000.0
+    length = np.add(size >= 10.0, size >= 100.0, dtype=np.int64)  # "d.ddd" is 5 bytes, "dd.ddd" 6, "ddd.ddd" 7
     length += values < 0
-    length += eol
+    length += 5 + eol
     ends = np.cumsum(length)
     ends += pos - eol
     ok &= ends < end
@@ -64,7 +60,9 @@ def _like_three_decimals(buf: np.ndarray, values: np.ndarray, pos: int, end: int
     ok &= buf[4:].take(dot) == (13 if eol == 2 else 10)
     ok &= buf.take(dot) == ord(".")
     for k in (1, 2, 3):
-        ok &= _DIGITS.take(buf[k:].take(dot))
+        digit = buf[k:].take(dot)
+        digit -= ord("0")  # uint8: anything but 0-9 becomes 10 or more
+        ok &= digit < 10
     return ends, ok
 
 

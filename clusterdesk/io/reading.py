@@ -15,7 +15,7 @@ from . import reasons as R
 from .cleaning import ReadSummary, RowFates, check_scale_and_range, clean_column, detect_resolution
 from .decoding import binary_kind, decode, is_zip
 from .fastpath import read_fast_table
-from .pandas_column import OnDisk
+from .large_file import read_large_column
 from .table import ColumnSummary, choose_column, summarize
 from .text_table import read_text_table
 from .xlsx import read_xlsx_table, workbook_sheet_names
@@ -152,7 +152,6 @@ class _Source:
     where: str
     label: str
     suffix: str
-    on_disk: OnDisk | None = None
 
 
 def _load(source, text) -> _Source:
@@ -175,11 +174,10 @@ def _load(source, text) -> _Source:
     if path.is_dir():
         raise InputError(f"{str(path)!r} is a folder, not a file; choose a CSV, text or XLSX file inside it.")
     try:
-        stamp = OnDisk.stamp_of(path)  # before reading: a change while the file is read shows
         data = path.read_bytes()
     except OSError as exc:
         raise InputError(f"{where} could not be opened ({exc.strerror or exc}); check that it is readable.") from None
-    return _Source(data, None, where, str(source), path.suffix.lower(), OnDisk(str(path), stamp))
+    return _Source(data, None, where, str(source), path.suffix.lower())
 
 
 class _Digest(threading.Thread):
@@ -198,6 +196,33 @@ class _Digest(threading.Thread):
     def result(self) -> str:
         self.join()
         return self.hexdigest
+
+
+@dataclass(frozen=True)
+class _Known:
+    """A digest already computed (the :class:`_Digest` interface)."""
+
+    hexdigest: str
+
+    def result(self) -> str:
+        return self.hexdigest
+
+
+def _read_large(source, text, *, sheet, delimiter, header, parser):
+    """A large one-column file read by pandas from its path (see :mod:`.large_file`): (source, table, digest) or None."""
+    if text is not None or sheet is not None or parser == "general" or not isinstance(source, (str, os.PathLike)):
+        return None
+    if isinstance(source, str) and ("\n" in source or "\r" in source):
+        return None
+    path = pathlib.Path(source)
+    if path.suffix.lower() in _WORKBOOK_SUFFIXES:
+        return None
+    where = repr(path.name or str(path))
+    found = read_large_column(path, where, delimiter=delimiter, header=header)
+    if found is None:
+        return None
+    table, sha256 = found
+    return _Source(None, None, where, str(source), path.suffix.lower()), table, _Known(sha256)
 
 
 def _read_table(src: _Source, *, sheet, delimiter, header, parser):
@@ -221,7 +246,7 @@ def _read_table(src: _Source, *, sheet, delimiter, header, parser):
         notes = ()
     table = None
     if parser == "vectorised" or (parser == "auto" and len(data) >= FAST_PATH_BYTES):
-        table = read_fast_table(data, src.where, delimiter=delimiter, header=header, on_disk=src.on_disk)
+        table = read_fast_table(data, src.where, delimiter=delimiter, header=header)
     if table is None:
         decoded = decode(data, src.where)
         table = read_text_table(
@@ -348,9 +373,13 @@ def read_measurements(
         Unknown column or sheet, bad settings, or no value kept.
     """
     low, high = check_scale_and_range(scale, low, high)
-    src = _load(source, text)
-    digest = _Digest(src)
-    table = _read_table(src, sheet=sheet, delimiter=delimiter, header=header, parser=parser)
+    large = _read_large(source, text, sheet=sheet, delimiter=delimiter, header=header, parser=parser)
+    if large is not None:
+        src, table, digest = large
+    else:
+        src = _load(source, text)
+        digest = _Digest(src)
+        table = _read_table(src, sheet=sheet, delimiter=delimiter, header=header, parser=parser)
     summaries = summarize(table)
     chosen = choose_column(summaries, column, src.where, "value")
     count_column = None

@@ -12,7 +12,20 @@ distributed = pytest.importorskip(
     "distributed", reason="dask.distributed is not installed (pip install 'clusterdesk[cluster]')")
 
 
-def test_dask_local_cluster_gives_the_same_summary_as_the_local_pool(inputs, reference_run, tmp_path):
+@pytest.fixture
+def restore_blas_threads():
+    """The in-process workers limit BLAS to one thread for good; give this test process its setting back."""
+    from clusterdesk.screen import pool
+
+    yield
+    for limiter in pool._LIMITER:
+        if limiter is not None:
+            limiter.restore_original_limits()
+    pool._LIMITER.clear()
+
+
+def test_dask_local_cluster_gives_the_same_summary_as_the_local_pool(inputs, reference_run, tmp_path,
+                                                                     restore_blas_threads):
     folder, _ = inputs
     _, out_local = reference_run
     # A two-worker cluster over TCP on the loopback interface, one thread per worker, in this

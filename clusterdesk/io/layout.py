@@ -5,6 +5,13 @@ Instruments and spreadsheets often write a few lines of metadata
 data start at the first row that holds a number and is followed by rows that
 mostly hold numbers too; the header is the last non-blank row above it when
 that row holds no number; everything above is the preamble.
+
+A measurement is never taken for metadata: rows of bare numbers (every
+filled cell a plain number or a missing-value mark, as many cells as the
+data rows) above that start, with only a stray word or two among them, are
+data, and the stray words become rows that are not numbers.  So a short
+column such as ``diameter, 3.2, 3.4, 7.9, bad, 8.1`` keeps its first three
+values instead of reading ``bad`` as a second header.
 """
 
 from __future__ import annotations
@@ -13,7 +20,7 @@ from collections import Counter
 from dataclasses import dataclass
 from typing import Sequence
 
-from .numbers import looks_numeric
+from .numbers import clean_text, looks_numeric, plain_number_text
 
 __all__ = ["Layout", "find_layout", "column_names", "has_no_data"]
 
@@ -56,6 +63,42 @@ def _data_like(cell) -> bool:
     if isinstance(cell, str) and cell.strip(" \t\u00a0\ufeff").lower() in MISSING_MARKERS:
         return True
     return looks_numeric(cell)
+
+
+def _bare_number(cell) -> bool:
+    """A cell that is a plain number (point or comma decimal, no unit or word) or a missing-value mark."""
+    if isinstance(cell, bool):
+        return False
+    if isinstance(cell, (int, float)):
+        return True
+    if not isinstance(cell, str):
+        return False
+    text = clean_text(cell)
+    return plain_number_text(text) or text.lower() in MISSING_MARKERS
+
+
+def _earlier_data_start(rows, widths, texty, start: int) -> int:
+    """The first row of bare numbers above ``start`` when the rows between are data with a stray word or two.
+
+    Rows of bare numbers with the data's width are measurements, not
+    metadata; they are taken as data when the text rows among them are at
+    most one, or at most a fifth as many as the rows of numbers.
+    """
+    later = [w for w in widths[start:] if w > 0]
+    if not later:
+        return start
+    data_width = Counter(later).most_common(1)[0][0]
+    bare = [widths[i] == data_width and all(_blank(c) or _bare_number(c) for c in rows[i])
+            and any(not _blank(c) for c in rows[i]) for i in range(start)]
+    first = next((i for i in range(start) if bare[i]), None)
+    if first is None:
+        return start
+    n_bare = sum(bare[first:start])
+    n_text = sum(texty[first:start])
+    n_other = sum(1 for i in range(first, start) if widths[i] > 0 and not bare[i] and not texty[i])
+    if n_other == 0 and (n_text <= 1 or n_text <= 0.2 * n_bare):
+        return first
+    return start
 
 
 def _has_letter(cell) -> bool:
@@ -105,6 +148,7 @@ def find_layout(rows: Sequence[Sequence], header: bool | None = None) -> Layout:
             start = first
         else:
             start = filled[1] if len(filled) > 1 and texty[filled[0]] else (filled[0] if filled else 0)
+    start = _earlier_data_start(rows, widths, texty, start)
     head = start - 1
     while head >= 0 and widths[head] == 0:
         head -= 1

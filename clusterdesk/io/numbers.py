@@ -29,7 +29,7 @@ import numpy as np
 
 from . import reasons as R
 
-__all__ = ["NumberStyle", "ParsedColumn", "parse_column", "finish_column", "looks_numeric", "clean_text", "grouped_decimal_comma", "point_kind"]
+__all__ = ["NumberStyle", "ParsedColumn", "parse_column", "finish_column", "looks_numeric", "plain_number_text", "clean_text", "grouped_decimal_comma", "point_kind"]
 
 #: Characters stripped from both ends of a cell: spaces, tabs, no-break
 #: spaces (U+00A0, U+202F, U+2007), thin space, zero-width space, BOM.
@@ -202,6 +202,25 @@ def _scan(text: str) -> _Scan | int:
         unit=m.group("unit"),
         limit=limit,
     )
+
+
+_PLAIN_COMMA = re.compile(r"[+-]?[0-9]+,[0-9]+(?:[eE][+-]?[0-9]+)?")
+
+
+def plain_number_text(text: str) -> bool:
+    """Tell whether cleaned text is a bare number: digits with one decimal point or comma, an optional exponent.
+
+    Parameters
+    ----------
+    text : str
+        A cell after :func:`clean_text`.
+
+    Returns
+    -------
+    bool
+        False for units, thousands groups, detection limits and words.
+    """
+    return bool(_PLAIN.fullmatch(text) or _PLAIN_COMMA.fullmatch(text))
 
 
 def looks_numeric(cell) -> bool:

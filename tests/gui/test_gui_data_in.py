@@ -51,7 +51,7 @@ def test_drag_and_drop_a_file_and_text(qtbot, window):
     np.testing.assert_array_equal(window.analysis.measurements.values, lake_lengths())
 
     text = QMimeData()
-    text.setText("diameter\n3.2\n3.4\n\n7.9\nn/a\n8.1\n")
+    text.setText("diameter\n3.2\n3.4\n\n7.9\nbad\n8.1\n")  # a stray word is not a second header
     drop = QDropEvent(QPointF(10, 10), Qt.DropAction.CopyAction, text, Qt.MouseButton.LeftButton,
                       Qt.KeyboardModifier.NoModifier)
     run(qtbot, window, lambda: window.dropEvent(drop))

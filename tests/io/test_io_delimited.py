@@ -115,6 +115,36 @@ def test_numeric_preamble_line_above_a_header_is_not_data():
     assert m.values.tolist() == [12.5, 13.5, 14.5]
 
 
+@pytest.mark.parametrize("text", [
+    "diameter\n3.2\n3.4\n\n7.9\nbad\n8.1",  # pasted from a spreadsheet: a blank and a word among values
+    "diameter\n3.2\n3.4\n7.9\nbad\n8.1\n",
+    "3.2\n3.4\n\n7.9\nbad\n8.1\n",
+])
+def test_a_stray_word_among_few_values_is_not_taken_for_a_header(text):
+    # Every input row is kept or excluded with its reason: the word is "not a
+    # number", the blank row "empty", and no value above the word is lost.
+    m = read_measurements(text=text)
+    assert m.values.tolist() == [3.2, 3.4, 7.9, 8.1]
+    assert m.summary.excluded.get("not a number") == 1
+    assert len(m.rows.line) == m.summary.rows_read == len(text.strip("\n").split("\n")) - (text[0] == "d")
+    assert m.format.preamble_lines == ()
+
+
+def test_stray_words_in_two_columns_keep_the_rows_above_them():
+    text = "length;count\n12,5;3\n13,0;2\nn/a;1\nbroken;x\n14,5;4\n"
+    m = read_measurements(text=text, counts="count")
+    assert m.format.header_line == 1 and m.values.tolist() == [12.5, 13.0, 14.5]
+    assert m.rows.line.tolist() == [2, 3, 4, 5, 6]
+
+
+def test_metadata_with_words_above_a_header_stays_preamble():
+    # A bare number above words and a header is metadata only when words come
+    # between it and the data; it is reported in the preamble, not dropped silently.
+    m = read_measurements(text="17\nOperator: Doe\nlength\n12.5\n13\n")
+    assert m.format.preamble_lines == (1, 2) and m.format.preamble[0] == "17"
+    assert m.format.header_line == 3 and m.values.tolist() == [12.5, 13.0]
+
+
 def test_no_header_and_forced_header():
     assert read_measurements(text="1.5\n2.5\n").format.header_line is None
     years = read_measurements(text="2019,2020\n1.5,2.5\n3.5,4.5\n", header=True)

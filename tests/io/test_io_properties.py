@@ -140,3 +140,28 @@ def test_every_row_accounted_for(lines):
     assert m.rows.kept.sum() == s.rows_kept
     assert (m.rows.position[m.rows.kept] == range(s.rows_kept)).all()
     assert (m.values == m.rows.value[m.rows.kept]).all()
+
+
+@SETTINGS
+@given(
+    values=st.lists(st.integers(-99999, 99999), min_size=2, max_size=40),
+    words=st.lists(st.tuples(st.integers(1, 40), st.sampled_from(["bad", "n/a", "error", "--", "?"])), max_size=3),
+    header=st.booleans(),
+    blank_at=st.lists(st.integers(1, 40), max_size=2),
+)
+def test_every_value_line_is_kept_whatever_words_and_blanks_lie_among_them(values, words, header, blank_at):
+    # Rows in = rows out (every line accounted for), and no measurement is taken
+    # for metadata: a column of values with a few stray words and blank lines.
+    cells = [f"{v / 100:.2f}" for v in values]
+    words = words[: max(1, len(values) // 5)]  # stray words: one, or at most a fifth of the values
+    for position, word in sorted(words, reverse=True):
+        cells.insert(min(position, len(cells)), word)
+    for position in sorted(blank_at, reverse=True):
+        cells.insert(min(position, len(cells)), "")
+    while cells[-1] == "":
+        cells.pop()  # blank lines at the end of a file are not rows
+    lines = (["reading"] if header else []) + cells
+    m = read_measurements(text="\n".join(lines) + "\n")
+    assert sorted(m.values.tolist()) == sorted(v / 100 for v in values)
+    assert m.summary.rows_read == len(cells)
+    assert m.format.preamble_lines == ()

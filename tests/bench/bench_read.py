@@ -7,7 +7,7 @@ Run by hand (pytest does not collect this folder)::
 
 The files are generated (seeded) in a temporary folder and deleted afterwards.
 Each reader runs in a fresh subprocess, so that its peak memory (VmHWM from
-/proc/self/status) is its own; the best of ``--repeat`` runs is reported.
+/proc/self/status) is its own; the best of ``--repeat`` runs is reported, the readers taking turns.
 Targets: the 10**7-row CSV in under 1.5 times the fastest plain parser, with a
 peak memory increase under 4 times the float64 size of the data.  The rows
 "clusterdesk" (pandas' C parser for a plain one-column file, where pandas is
@@ -60,6 +60,13 @@ def _read(reader: str, path: str):
         import pandas as pd
 
         return pd.read_csv(path).iloc[:, 0].to_numpy()
+    if reader == "pandas.read_csv (tuned)":
+        import pandas as pd
+
+        # The fastest settings we know for a column of plain numbers: the dtype given,
+        # no missing-value filter, C engine (what ClusterDesk's own route asks pandas for).
+        frame = pd.read_csv(path, dtype=np.float64, na_filter=False, engine="c")
+        return frame.iloc[:, 0].to_numpy()
     if reader == "python-calamine":
         from python_calamine import CalamineWorkbook
 
@@ -109,15 +116,21 @@ def worker(reader: str, path: str) -> None:
     print(json.dumps({"seconds": seconds, "peak_kib": peak, "baseline_kib": baseline, "n": int(values.size), "digest": digest}))
 
 
-def run(reader: str, path: pathlib.Path, repeat: int) -> dict:
-    best = None
+def run_once(reader: str, path: pathlib.Path) -> dict:
+    out = subprocess.run(
+        [sys.executable, __file__, "--worker", reader, str(path)], capture_output=True, text=True, check=True
+    )
+    return json.loads(out.stdout.strip().splitlines()[-1])
+
+
+def run_all(readers: list[str], path: pathlib.Path, repeat: int) -> dict:
+    """The best of ``repeat`` runs of each reader, the readers taking turns (so a change in load hits all alike)."""
+    best: dict = {}
     for _ in range(repeat):
-        out = subprocess.run(
-            [sys.executable, __file__, "--worker", reader, str(path)], capture_output=True, text=True, check=True
-        )
-        result = json.loads(out.stdout.strip().splitlines()[-1])
-        if best is None or result["seconds"] < best["seconds"]:
-            best = result
+        for reader in readers:
+            result = run_once(reader, path)
+            if reader not in best or result["seconds"] < best[reader]["seconds"]:
+                best[reader] = result
     return best
 
 
@@ -178,12 +191,12 @@ def main() -> None:
         t = time.perf_counter()
         write_csv(csv_path, n_csv)
         print(f"wrote {n_csv:,} rows, {csv_path.stat().st_size / 1e6:.0f} MB of CSV in {time.perf_counter() - t:.0f} s")
-        csv_readers = ["clusterdesk", "clusterdesk (numpy kernels)", "numpy.loadtxt", "pandas.read_csv"]
+        csv_readers = ["clusterdesk", "clusterdesk (numpy kernels)", "numpy.loadtxt", "pandas.read_csv", "pandas.read_csv (tuned)"]
         csv_readers += ["clusterdesk (per-cell)"] if args.per_cell else []
-        csv_results = {r: run(r, csv_path, args.repeat) for r in csv_readers}
-        report(f"CSV, {n_csv:,} rows, one column", csv_results, ["numpy.loadtxt", "pandas.read_csv"], n_csv * 8)
+        csv_results = run_all(csv_readers, csv_path, args.repeat)
+        report(f"CSV, {n_csv:,} rows, one column", csv_results, ["numpy.loadtxt", "pandas.read_csv", "pandas.read_csv (tuned)"], n_csv * 8)
         ours = csv_results["clusterdesk"]
-        fastest = min(csv_results[r]["seconds"] for r in ("numpy.loadtxt", "pandas.read_csv"))
+        fastest = min(csv_results[r]["seconds"] for r in ("numpy.loadtxt", "pandas.read_csv", "pandas.read_csv (tuned)"))
         increase = (ours["peak_kib"] - ours["baseline_kib"]) * 1024
         print(f"  target time < 1.5 x fastest: {'met' if ours['seconds'] < 1.5 * fastest else 'NOT met'} "
               f"({ours['seconds'] / fastest:.2f}); target memory < 4 x float64: "
@@ -193,7 +206,7 @@ def main() -> None:
         write_xlsx(xlsx_path, n_xlsx)
         print(f"\nwrote {n_xlsx:,} rows, {xlsx_path.stat().st_size / 1e6:.0f} MB of XLSX in {time.perf_counter() - t:.0f} s")
         xlsx_readers = ["clusterdesk", "python-calamine", "openpyxl", "pandas.read_excel (calamine)"]
-        xlsx_results = {r: run(r, xlsx_path, max(1, args.repeat - 1)) for r in xlsx_readers}
+        xlsx_results = run_all(xlsx_readers, xlsx_path, max(1, args.repeat - 1))
         report(f"XLSX, {n_xlsx:,} rows, one column", xlsx_results, ["python-calamine", "openpyxl"], n_xlsx * 8)
 
 

@@ -25,6 +25,7 @@ def application(argv=None):
     """The QApplication (created once, with our names and the light theme)."""
     from PySide6.QtWidgets import QApplication
 
+    from .collector import collect_on_gui_thread
     from .refcounts import guard_bool_singletons
     from .settings import APPLICATION, ORGANISATION
 
@@ -37,6 +38,7 @@ def application(argv=None):
     app.setApplicationName(APPLICATION)
     app.setApplicationDisplayName(APPLICATION)
     configure_theme()
+    collect_on_gui_thread()  # never in a worker thread: Qt objects in a cycle must die on this one
     return app
 
 

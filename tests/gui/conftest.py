@@ -13,6 +13,7 @@ pytest.importorskip("pytestqt")
 from PySide6.QtCore import QSettings  # noqa: E402
 
 from clusterdesk.gui.app import configure_theme  # noqa: E402
+from clusterdesk.gui.collector import collect_on_gui_thread, stop_collecting_on_gui_thread  # noqa: E402
 from clusterdesk.gui.refcounts import guard_bool_singletons  # noqa: E402
 
 guard_bool_singletons()
@@ -27,6 +28,18 @@ def private_settings_location(tmp_path_factory):
         QSettings.setPath(fmt, QSettings.Scope.UserScope, str(folder))
         QSettings.setPath(fmt, QSettings.Scope.SystemScope, str(folder))
     return folder
+
+
+@pytest.fixture(autouse=True)
+def collect_garbage_on_the_gui_thread(qapp):
+    """As the application does: cyclic garbage is collected on this thread only, never by a worker.
+
+    A worker thread that triggered Python's collector while a Qt object sat in
+    a reference cycle crashed the test process (clusterdesk/gui/collector.py).
+    """
+    collect_on_gui_thread()
+    yield
+    stop_collecting_on_gui_thread()
 
 
 @pytest.fixture

@@ -307,6 +307,7 @@ class Workflow:
         path = Path(path)
         if not path.name.endswith(ANALYSIS_SUFFIX):
             path = path.with_name(path.name + ANALYSIS_SUFFIX)
+        renamed = a.source_path is None
         if a.source_path is None and self.pasted_text is not None:
             # Pasted values have no file to re-read: keep them beside the analysis.
             values = path.with_name(path.name[: -len(ANALYSIS_SUFFIX)] + "-values.txt")
@@ -315,6 +316,8 @@ class Workflow:
         saved = a.save(path)
         self.saved_path = str(saved)
         self._remember(saved)
+        if renamed:  # the pasted values now have a file: the title and data panel name it
+            self.refresh()
         self.status(f"Saved the analysis to {saved}.")
 
     def open_analysis(self, path) -> None:

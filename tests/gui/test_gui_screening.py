@@ -132,7 +132,8 @@ def test_sorting_and_filtering(qtbot, window, folder, reference, tmp_path):
     assert page.proxy.rowCount() == len(reference.rows)
 
 
-def test_cancel_stops_within_a_second_and_keeps_the_finished_rows(qtbot, window, tmp_path):
+@pytest.mark.parametrize("workers", [1, 2])
+def test_cancel_stops_within_a_second_and_keeps_the_finished_rows(qtbot, window, tmp_path, workers):
     rng = np.random.default_rng(20261203)
     columns = [_groups(rng, 3000, [0.0, 3.0, 5.0, 9.0], 1.3) for _ in range(12)]
     header = ",".join(f"reading_{j}" for j in range(len(columns)))
@@ -142,7 +143,7 @@ def test_cancel_stops_within_a_second_and_keeps_the_finished_rows(qtbot, window,
     window.show_screening()
     page.set_inputs([tmp_path])
     page.set_settings(ScanSettings(kmin=1, kmax=8, widths="both", restarts=20, seed=3))
-    page.workers.setValue(1)
+    page.workers.setValue(workers)
     with qtbot.waitSignal(page._relay.reported, timeout=60_000):
         page.start_button.click()
     assert page.busy

@@ -27,12 +27,28 @@ from .atomic import write_text_atomic
 from .errors import FileFormatError, InputError
 from .io import Measurements, read_measurements
 
-__all__ = ["DataChoice", "ScanSettings", "Analysis", "ANALYSIS_SUFFIX", "FORMAT_VERSION"]
+__all__ = ["DataChoice", "ScanSettings", "Analysis", "ANALYSIS_SUFFIX", "FORMAT_VERSION", "SourceChangedError"]
 
 #: File name ending of saved analyses (JSON inside).
 ANALYSIS_SUFFIX = ".cdesk"
 #: Version of the saved-analysis layout; bumped when the layout changes.
 FORMAT_VERSION = 1
+
+
+class SourceChangedError(InputError):
+    """The source file of a saved analysis is not the one it was saved with (its SHA-256 differs).
+
+    Attributes
+    ----------
+    path : Path
+        The analysis file.
+    source : str
+        The source file it points at.
+    """
+
+    def __init__(self, message: str, path, source: str):
+        super().__init__(message)
+        self.path, self.source = Path(path), source
 
 
 @dataclass(frozen=True)
@@ -301,18 +317,35 @@ class Analysis:
         return path
 
     @classmethod
-    def open(cls, path, *, rescan: bool = True, progress=None, cancel=None) -> "OpenedAnalysis":
+    def open(cls, path, *, rescan: bool = True, accept_changed_source: bool = False, progress=None,
+             cancel=None) -> "OpenedAnalysis":
         """Reopen a saved analysis: re-read its source, redo its scan, restore the choice.
 
         The scan is deterministic for a given seed, so the numbers are the same
-        as when the analysis was saved, provided the source is unchanged; a
-        changed source is read all the same and reported in the result.
+        as when the analysis was saved, provided the source is unchanged.
+        Opening never writes anything.
+
+        Parameters
+        ----------
+        path : str or Path
+            The ``.cdesk`` file.
+        rescan : bool, default True
+            Redo the scan and restore the chosen model.
+        accept_changed_source : bool, default False
+            Read a source whose contents changed since the analysis was saved
+            (the result says so) instead of refusing.
+        progress, cancel
+            As for :meth:`compute_scan`.
 
         Raises
         ------
         FileFormatError
             The file is not a saved analysis (truncated, malformed, or from a
-            newer version of ClusterDesk).
+            newer version of ClusterDesk), or its settings or chosen model
+            cannot be used.
+        SourceChangedError
+            Its source file changed since it was saved (and
+            ``accept_changed_source`` is False).
         InputError
             Its source file is missing.
         """
@@ -322,8 +355,9 @@ class Analysis:
         except FileNotFoundError:
             raise InputError(f"There is no analysis file {path}; check the name and folder.") from None
         except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
-            raise FileFormatError(f"{path.name} is not a readable ClusterDesk analysis ({exc}); "
-                                  "it may be truncated or not an analysis file.") from None
+            raise FileFormatError(f"{path.name} is not a readable ClusterDesk analysis ({exc}): it may be "
+                                  "truncated or not an analysis file; open the data file itself, or an "
+                                  "earlier copy of the analysis.") from None
         saved = _parse_saved(raw, path)
         source = saved["source"]["path"]
         if not source or not Path(source).is_file():
@@ -331,10 +365,22 @@ class Analysis:
                              "put it back in place or open the data file itself.")
         analysis = cls.from_file(source, DataChoice(**saved["data"]), ScanSettings(**saved["settings"]))
         changed = analysis.measurements.sha256 != saved["source"]["sha256"]
+        if changed and not accept_changed_source:
+            raise SourceChangedError(
+                f"The source file {Path(source).name} changed since {path.name} was saved (its contents "
+                "differ), so the saved results cannot be reproduced; put the original file back, or "
+                "open it anyway to analyse the file as it is now.", path, source)
         if rescan:
             analysis.run_scan(progress=progress, cancel=cancel)
             if saved["choice"]:
-                analysis.choose(int(saved["choice"][0]), str(saved["choice"][1]))
+                k, widths = saved["choice"]
+                try:
+                    analysis.choose(k, widths)
+                except InputError:
+                    raise FileFormatError(
+                        f"The chosen model of {path.name} ({k} components, {widths} widths) is not among the "
+                        "models its settings fit; the file was edited or damaged, so open the data file "
+                        "itself instead.") from None
         return OpenedAnalysis(analysis=analysis, source_changed=changed)
 
     # -------------------------------------------------------------- internals
@@ -373,18 +419,59 @@ def _parse_saved(raw, path) -> dict:
         raise bad
     if version > FORMAT_VERSION:
         raise FileFormatError(f"{path.name} was saved by a newer ClusterDesk "
-                              f"({raw.get('software_version', 'unknown version')}, layout {version}); "
-                              f"this is {__version__}, which reads layout {FORMAT_VERSION}. Update ClusterDesk.")
+                              f"({raw.get('software_version', 'unknown version')}, layout {version}) than this "
+                              f"one ({__version__}, which reads layout {FORMAT_VERSION}); update ClusterDesk "
+                              "to open it.")
+    if not isinstance(raw.get("data"), dict) or not isinstance(raw.get("settings"), dict):
+        raise bad
     try:
         source = raw["source"]
         data = {key: raw["data"][key] for key in DataChoice.__dataclass_fields__ if key in raw["data"]}
         settings = {key: raw["settings"][key] for key in ScanSettings.__dataclass_fields__
                     if key in raw["settings"]}
         choice = raw.get("choice")
-        if not isinstance(source, dict) or "path" not in source or "sha256" not in source:
+        if not isinstance(source, dict) or not isinstance(source.get("path"), str) or "sha256" not in source:
             raise bad
-        if choice is not None and (not isinstance(choice, list) or len(choice) != 2):
+        if choice is not None and (not isinstance(choice, list) or len(choice) != 2
+                                   or not _whole(choice[0], 1) or choice[1] not in ("separate", "shared")):
             raise bad
     except (KeyError, TypeError):
         raise bad from None
+    problem = _settings_problem(settings) or _data_problem(data)
+    if problem:
+        raise FileFormatError(f"{path.name} holds settings that cannot be used ({problem}); the file was "
+                              "edited or damaged, so open the data file itself instead.")
     return {"source": source, "data": data, "settings": settings, "choice": choice}
+
+
+def _whole(value, low: int) -> bool:
+    """A whole number (not a bool) of at least ``low``."""
+    return isinstance(value, int) and not isinstance(value, bool) and value >= low
+
+
+def _settings_problem(settings: dict) -> str:
+    """What is wrong with saved scan settings ('' when nothing)."""
+    for name, low in (("kmin", 1), ("kmax", 1), ("restarts", 1), ("seed", 0)):
+        if name in settings and not _whole(settings[name], low):
+            return f"{name} is {settings[name]!r}, not a whole number >= {low}"
+    if settings.get("kmin", 1) > settings.get("kmax", ScanSettings.kmax):
+        return f"kmin {settings.get('kmin')} is larger than kmax {settings.get('kmax', ScanSettings.kmax)}"
+    if settings.get("widths", "both") not in ("separate", "shared", "both"):
+        return f"widths is {settings['widths']!r}"
+    return ""
+
+
+def _data_problem(data: dict) -> str:
+    """What is wrong with a saved data choice ('' when nothing)."""
+    for name in ("column", "counts", "sheet"):
+        value = data.get(name)
+        if value is not None and (isinstance(value, bool) or not isinstance(value, (str, int))
+                                  or (isinstance(value, int) and value < 0)):
+            return f"{name} is {value!r}"
+    for name in ("low", "high"):
+        value = data.get(name)
+        if value is not None and (isinstance(value, bool) or not isinstance(value, (int, float))):
+            return f"{name} is {value!r}"
+    if data.get("scale", "linear") not in ("linear", "ln", "log10"):
+        return f"scale is {data['scale']!r}"
+    return ""

@@ -20,6 +20,7 @@ from ..report.tables import components_table
 from .dialogs import MessageBar
 from .errors import describe_error
 from .export import report_writer
+from .file_problems import AnalysisFileProblems
 from .panels import DataPanel, FitPanel
 from .plots import CriteriaView, DistributionView, QQView
 from .results import ComponentsPanel, RankingPanel, caution_label
@@ -36,7 +37,7 @@ __all__ = ["MainWindow", "SYNC_VALUES"]
 SYNC_VALUES = 50_000
 
 
-class MainWindow(Workflow, ScreeningWorkflow, QMainWindow):
+class MainWindow(Workflow, ScreeningWorkflow, AnalysisFileProblems, QMainWindow):
     """The ClusterDesk window.
 
     Parameters

@@ -320,8 +320,12 @@ class Workflow:
             self.refresh()
         self.status(f"Saved the analysis to {saved}.")
 
-    def open_analysis(self, path) -> None:
-        """Reopen a saved analysis on the worker: re-read its source, refit, restore the choice."""
+    def open_analysis(self, path, accept_changed_source: bool = False) -> None:
+        """Reopen a saved analysis on the worker: re-read its source, refit, restore the choice.
+
+        A problem (a damaged file, a missing or changed source) is shown in a
+        message box and the analysis shown is kept.
+        """
         if self.runner.busy:
             return
         self.task_unit = "models fitted"
@@ -342,7 +346,9 @@ class Workflow:
             self.status(f"Reopened {Path(path).name}.")
 
         self.runner.start(f"Reopening {Path(path).name}",
-                          lambda p, c: Analysis.open(path, progress=p, cancel=c), apply)
+                          lambda p, c: Analysis.open(path, accept_changed_source=accept_changed_source,
+                                                    progress=p, cancel=c),
+                          apply, self.analysis_file_refused)
 
     # ---------------------------------------------------------------- exports
     def _suggested(self, suffix: str) -> str:

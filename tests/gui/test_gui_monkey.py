@@ -23,6 +23,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
+from clusterdesk.analysis import Analysis, ScanSettings
 from clusterdesk.gui.models import model_words
 
 pytestmark = [pytest.mark.gui, pytest.mark.slow]
@@ -61,7 +62,14 @@ def _write_files(folder: Path) -> tuple[list, list]:
     newer.write_text(json.dumps({"format": "clusterdesk-analysis", "format_version": 999,
                                  "source": {"path": str(good_csv), "sha256": "0"}, "data": {},
                                  "settings": {}, "choice": None}), encoding="utf-8")
-    return [good_csv, good_txt, tally], [empty, binary, words, truncated, newer, folder / "missing.csv"]
+    stale_source = folder / "stale.csv"
+    stale_source.write_text(good_txt.read_text(encoding="utf-8"), encoding="utf-8")
+    analysis = Analysis.from_file(stale_source, settings=ScanSettings(kmax=2, restarts=1))
+    analysis.run_scan()
+    stale = analysis.save(folder / "stale.cdesk")
+    with open(stale_source, "a", encoding="utf-8") as handle:
+        handle.write("7.5\n")  # changed since saved: the window asks whether to open it anyway
+    return [good_csv, good_txt, tally], [empty, binary, words, truncated, newer, stale, folder / "missing.csv"]
 
 
 class Monkey:
@@ -199,6 +207,10 @@ class Monkey:
         action = self.rng.choices([a for _, a in self.actions], weights)[0]
         action()
         self.wait_idle()
+        box = self.w.analysis_file_box
+        if box is not None and box.isVisible():  # answer the box like a user: any of its buttons
+            self.rng.choice(box.buttons()).click()
+            self.wait_idle()
         return action.__name__
 
 

@@ -9,6 +9,7 @@ shows the same best model as the row.
 
 from __future__ import annotations
 
+import dataclasses
 from pathlib import Path
 
 from PySide6.QtCore import QTimer
@@ -77,9 +78,7 @@ class ScreeningWorkflow:
         if shown is not None:
             self.fit_panel.set_settings(shown)
         else:  # the column's seed is too large for the panel: show the rest, say so
-            self.fit_panel.set_settings(settings.__class__(kmin=settings.kmin, kmax=settings.kmax,
-                                                           widths=settings.widths, restarts=settings.restarts,
-                                                           seed=self.fit_panel.seed.value()))
+            self.fit_panel.set_settings(dataclasses.replace(settings, seed=self.fit_panel.seed.value()))
         self.task_unit = "models fitted"
 
         def apply(result):

@@ -9,6 +9,7 @@ row's. The folder is synthetic, generated here with fixed seeds.
 from __future__ import annotations
 
 import csv
+import multiprocessing
 import time
 from collections import Counter
 from pathlib import Path
@@ -177,6 +178,7 @@ def test_opening_a_row_loads_that_column_and_fits_it_as_the_screening_did(qtbot,
     assert a.scan.best.bic == pytest.approx(row.bic, rel=1e-9)
     np.testing.assert_allclose(np.sort(a.scan.best.mixture.means), row.means, rtol=1e-7)
     assert window.ranking.model.rowCount() == len(a.scan.ranking)
+    assert f"screening seed {row.seed}" in window.statusBar().currentMessage()  # too large for the panel
     # Back to the table: a skipped column cannot be opened
     window.show_screening()
     page.select_source_row(next(i for i, r in enumerate(page.table_model.screen_rows) if r.status == "skipped"))
@@ -191,3 +193,27 @@ def test_a_look_at_the_page(qtbot, window, folder):
     window.resize(1360, 860)
     path = shoot(window, "8-screening-page")
     assert path.stat().st_size > 0
+
+
+def test_a_bad_column_pattern_stops_the_run_with_its_reason(qtbot, window, folder):
+    page = window.screening
+    page.set_inputs([folder])
+    page.patterns.setText("length*, re:(unclosed")
+    with qtbot.waitSignal(page.runner.finished, timeout=30_000) as blocker:
+        page.start_button.click()
+    assert blocker.args[0].status == "failed"
+    assert "not a valid regular expression" in page.progress_label.text()
+    assert page.table_model.rowCount() == 0 and page.start_button.isEnabled()
+
+
+def test_closing_the_window_while_screening_stops_the_workers(qtbot, window, folder):
+    page = window.screening
+    page.set_inputs([folder])
+    page.set_settings(ScanSettings(kmin=1, kmax=8, widths="both", restarts=30, seed=1))
+    page.workers.setValue(2)
+    with qtbot.waitSignal(page._relay.reported, timeout=60_000):
+        page.start_button.click()
+    assert any(p.name.startswith("clusterdesk-screen-") for p in multiprocessing.active_children())
+    window.close()  # cancels the run and joins its thread (the process would abort otherwise)
+    assert not page.busy
+    assert not any(p.name.startswith("clusterdesk-screen-") for p in multiprocessing.active_children())

@@ -9,7 +9,6 @@ shows the same best model as the row.
 
 from __future__ import annotations
 
-import dataclasses
 from pathlib import Path
 
 from PySide6.QtCore import QTimer
@@ -71,14 +70,10 @@ class ScreeningWorkflow:
         self.runner.start(f"Reading {Path(path).name}", lambda p, c: _read_source(path, data, settings), apply)
 
     def _fit_screened(self, analysis, settings, where: str) -> None:
-        """Fit the opened column with the run's settings and the column's seed (not the panel's)."""
+        """Fit the opened column with the run's settings and the column's seed (the panel shows them)."""
         if self.analysis is not analysis or self.runner.busy:
             return
-        shown = settings if settings.seed <= self.fit_panel.seed.maximum() else None
-        if shown is not None:
-            self.fit_panel.set_settings(shown)
-        else:  # the column's seed is too large for the panel: show the rest, say so
-            self.fit_panel.set_settings(dataclasses.replace(settings, seed=self.fit_panel.seed.value()))
+        self.fit_panel.set_settings(settings)  # Fit models then reproduces the row too
         self.task_unit = "models fitted"
 
         def apply(result):
@@ -86,10 +81,8 @@ class ScreeningWorkflow:
             self.show_results()
             self.distribution.redraw()
             best = analysis.scan.best
-            note = "" if shown is not None else (
-                f" It used the column's screening seed {settings.seed}; Fit models uses the panel's seed.")
-            self.status(f"Opened {where} from the screening; the best by BIC: "
-                        f"{model_words(best.k, best.widths)}.{note}")
+            self.status(f"Opened {where} from the screening (the column's seed {settings.seed}); "
+                        f"the best by BIC: {model_words(best.k, best.widths)}.")
             self.update_actions()
 
         self.runner.start("Fitting models", lambda p, c: analysis.compute_scan(settings, p, c), apply)

@@ -87,3 +87,17 @@ def test_a_changed_source_can_be_opened_anyway_or_not(qtbot, shown, tmp_path):
     assert run(qtbot, window, anyway.click).status == "done"
     assert window.analysis is not before and window.analysis.measurements.n == 601
     assert window.message_bar.level == "warning" and "changed since" in window.message_bar.text()
+
+
+def test_an_analysis_with_a_screened_columns_seed_reopens(qtbot, window, tmp_path):
+    # Seeds of screened columns go up to 2**63 - 1; the fit panel's seed once overflowed on them
+    # (found by the monkey test: OverflowError when reopening such an analysis).
+    source = tmp_path / "lake.csv"
+    shutil.copy(SAMPLES / "lake_net_lengths.csv", source)
+    seed = 2**63 - 25
+    analysis = Analysis.from_file(source, settings=ScanSettings(kmax=2, restarts=1, seed=seed))
+    analysis.run_scan()
+    path = analysis.save(tmp_path / "screened.cdesk")
+    assert run(qtbot, window, lambda: window.open_path(str(path))).status == "done"
+    assert window.analysis.settings.seed == seed and window.fit_panel.settings().seed == seed
+    assert [r.bic for r in window.analysis.scan.ranking] == [r.bic for r in analysis.scan.ranking]

@@ -3,7 +3,8 @@
 The actions are what a user does with the mouse and keyboard: open good and
 bad files, paste text, change the column, scale, range and scan settings,
 fit, cancel, choose a model, estimate intervals, export, save and reopen;
-some are tried while work is running (the window must refuse them politely).
+some are tried while work is running (the window must refuse them politely);
+the screening page screens the same folder, is cancelled, and opens rows.
 After every action the test waits until the window is idle and checks that
 no exception escaped (a replaced ``sys.excepthook``; pytest-qt also fails the
 test for exceptions raised in Qt virtual methods), that no message speaks of
@@ -91,7 +92,7 @@ class Monkey:
             (4, self.change_data), (8, self.fit), (3, self.fit_and_cancel), (6, self.choose),
             (2, self.intervals), (2, self.export_tables), (2, self.export_plot), (1, self.export_report),
             (2, self.save), (2, self.reopen), (2, self.poke_while_busy), (1, self.excluded_rows),
-            (2, self.switch_plot),
+            (2, self.switch_plot), (2, self.screen_folder), (2, self.open_screened_row),
         ]
 
     # ------------------------------------------------------------------ actions
@@ -193,13 +194,43 @@ class Monkey:
             self.w.excluded_action.trigger()
             self.w._excluded_dialog.close()
 
+    def screen_folder(self):
+        """Screen the folder of good and bad files (small settings, one worker); sometimes cancel."""
+        page = self.w.screening
+        self.w.screening_action.trigger()
+        page.set_inputs([self.folder])
+        page.set_settings(ScanSettings(kmin=1, kmax=self.rng.randint(1, 3), widths="both", restarts=1,
+                                       seed=self.rng.randint(0, 9)))
+        page.workers.setValue(1)
+        page.start_button.click()
+        if self.rng.random() < 0.3:
+            self.qtbot.wait(self.rng.randint(0, 50))
+            page.cancel_button.click()
+        self.qtbot.waitUntil(lambda: not page.busy, timeout=60_000)
+        if page.result is not None:  # finished: the table holds every row of the run
+            assert page.table_model.rowCount() == len(page.result.rows)
+        if self.rng.random() < 0.5:
+            page.back_button.click()
+
+    def open_screened_row(self):
+        page = self.w.screening
+        rows = page.proxy.rowCount()
+        if not rows:
+            return
+        self.w.screening_action.trigger()
+        page.view.selectRow(self.rng.randrange(rows))
+        page.open_button.click()  # disabled for rows that cannot be opened
+        self.qtbot.waitUntil(lambda: not self.w.runner.busy, timeout=60_000)
+        self.qtbot.wait(5)  # the fit starts on the next turn of the event loop
+
     def switch_plot(self):
         self.w.plots.setCurrentIndex(self.rng.randrange(self.w.plots.count()))
 
     # ------------------------------------------------------------------ walking
     def wait_idle(self):
         w = self.w
-        self.qtbot.waitUntil(lambda: not w.runner.busy and not w.view_jobs.busy, timeout=60_000)
+        self.qtbot.waitUntil(lambda: not w.runner.busy and not w.view_jobs.busy and not w.screening.busy,
+                             timeout=60_000)
 
     def step(self):
         self.count += 1
@@ -258,6 +289,7 @@ def test_a_few_hundred_random_actions_leave_the_window_whole_and_consistent(qtbo
         assert not escaped, f"{where}: {escaped!r}"
         check_consistent(window, where)
     # The walk really went through the main paths (same seed, same walk).
-    assert {"fit", "choose", "save", "reopen", "open_bad", "fit_and_cancel"} <= set(done)
+    assert {"fit", "choose", "save", "reopen", "open_bad", "fit_and_cancel", "screen_folder",
+            "open_screened_row"} <= set(done)
     assert monkey.saved and window.analysis is not None
     assert {"done", "failed", "cancelled"} <= set(outcomes)  # work finished, failed on bad input, was stopped

@@ -230,6 +230,7 @@ class MainWindow(Workflow, ScreeningWorkflow, AnalysisFileProblems, QMainWindow)
         self.runner.finished.connect(self._task_finished)
         self.qq.checkWanted.connect(self.request_fit_check)
         self.view_jobs.finished.connect(self._view_job_finished)
+        self.welcome.screenRequested.connect(self.show_screening)
         self.screening.openRequested.connect(self.open_screened_row)
         self.screening.backRequested.connect(self.leave_screening)
 

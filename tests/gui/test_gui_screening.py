@@ -218,3 +218,29 @@ def test_closing_the_window_while_screening_stops_the_workers(qtbot, window, fol
     window.close()  # cancels the run and joins its thread (the process would abort otherwise)
     assert not page.busy
     assert not any(p.name.startswith("clusterdesk-screen-") for p in multiprocessing.active_children())
+
+
+def test_a_workbook_sheet_row_opens_that_sheet_and_column(qtbot, window):
+    from gui_helpers import SAMPLES
+
+    window.welcome.screen_button.click()  # the start page leads here too
+    page = window.screening
+    assert window.stack.currentWidget() is page
+    page.ask_files = lambda: [str(SAMPLES / "shaft_diameters.xlsx")]
+    page.files_button.click()
+    page.set_settings(SETTINGS)
+    page.workers.setValue(1)
+    with qtbot.waitSignal(page.runner.finished, timeout=60_000):
+        page.start_button.click()
+    rows = page.table_model.screen_rows
+    source = next(i for i, r in enumerate(rows) if r.sheet and r.status == "ok")
+    row = rows[source]
+    page.select_source_row(source)
+    page.view.doubleClicked.emit(page.view.currentIndex())  # double-click opens it
+    qtbot.waitUntil(lambda: window.analysis is not None and window.analysis.scan is not None
+                    and not window.runner.busy, timeout=30_000)
+    a = window.analysis
+    assert a.data.sheet == row.sheet and a.measurements.column.name == row.column
+    assert window.data_panel.sheet.currentText() == row.sheet
+    assert (a.scan.best.k, a.scan.best.widths) == (row.best_k, row.best_widths)
+    assert a.scan.best.bic == pytest.approx(row.bic, rel=1e-9)

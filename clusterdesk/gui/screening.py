@@ -24,6 +24,7 @@ from ..analysis import ScanSettings
 from ..screen import default_workers, screen
 from ..screen.discover import DATA_SUFFIXES
 from ..screen.progress import format_duration
+from ..screen.overview import write_overview
 from ..screen.summary import write_summary
 from .errors import describe_error
 from .panels import FitPanel
@@ -189,13 +190,18 @@ class ScreeningView(QWidget):
                                     "same settings and the column's seed (double-click a row does the same).")
         self.open_button.clicked.connect(self.open_selected)
         self.save_button = QPushButton("Save table (CSV)…")
-        self.save_button.setToolTip("Write the rows of the table as a summary CSV.")
-        self.save_button.clicked.connect(self.save_table_dialog)
+        self.save_button.setToolTip("Write the rows of the table, as shown (sorted, filtered), as a summary CSV.")
+        self.save_button.clicked.connect(lambda: self.save_table_dialog("csv"))
+        self.overview_button = QPushButton("Save overview (HTML)…")
+        self.overview_button.setToolTip("One HTML page with a small density plot per column, for the rows "
+                                        "as shown.")
+        self.overview_button.clicked.connect(lambda: self.save_table_dialog("html"))
         self.back_button = QPushButton("Back to the analysis")
         self.back_button.clicked.connect(self.backRequested)
         bottom = QHBoxLayout()
         bottom.addWidget(self.open_button)
         bottom.addWidget(self.save_button)
+        bottom.addWidget(self.overview_button)
         bottom.addStretch(1)
         bottom.addWidget(self.back_button)
 
@@ -221,10 +227,14 @@ class ScreeningView(QWidget):
                                                 f"Data files ({patterns});;All files (*)")
         return files
 
-    def ask_save_path(self) -> str:
-        """Ask where to write the table ('' when the user gives up)."""
-        path, _ = QFileDialog.getSaveFileName(self, "Save the screening table", "summary.csv",
-                                              "CSV table (*.csv)")
+    def ask_save_path(self, kind: str = "csv") -> str:
+        """Ask where to write the table (``kind`` "csv") or the overview ("html"); '' when the user gives up."""
+        if kind == "html":
+            path, _ = QFileDialog.getSaveFileName(self, "Save the screening overview", "overview.html",
+                                                  "HTML page (*.html)")
+        else:
+            path, _ = QFileDialog.getSaveFileName(self, "Save the screening table", "summary.csv",
+                                                  "CSV table (*.csv)")
         return path
 
     # ------------------------------------------------------------------ settings and inputs
@@ -361,17 +371,20 @@ class ScreeningView(QWidget):
             return
         self.openRequested.emit(row, screen_settings_for_row(row, self.run_settings))
 
-    def save_table_dialog(self) -> None:
-        """Write the rows (in the table's current order, filtered) as a summary CSV."""
-        if not self.table_model.screen_rows:
+    def save_table_dialog(self, kind: str = "csv") -> None:
+        """Write the rows as shown (the table's order, filtered): a summary CSV, or the overview ("html")."""
+        if not self.table_model.screen_rows or self.run_settings is None:
             return
-        path = self.ask_save_path()
+        path = self.ask_save_path(kind)
         if not path:
             return
         rows = [self.table_model.screen_row(self.proxy.mapToSource(self.proxy.index(i, 0)).row())
                 for i in range(self.proxy.rowCount())]
         try:
-            written = write_summary(path, rows)
+            if kind == "html":
+                written = write_overview(path, rows, self.run_settings)
+            else:
+                written = write_summary(path, rows)
         except OSError as exc:
             self.progress_label.setText(describe_error(exc)[0])
             return
@@ -390,7 +403,8 @@ class ScreeningView(QWidget):
         self.cancel_button.setEnabled(busy)
         row = self.selected_row()
         self.open_button.setEnabled(row is not None and _openable(row) and self.run_settings is not None)
-        self.save_button.setEnabled(not busy and bool(self.table_model.screen_rows))
+        for button in (self.save_button, self.overview_button):
+            button.setEnabled(not busy and bool(self.table_model.screen_rows))
 
 
 def _openable(row) -> bool:

@@ -121,11 +121,14 @@ def test_sorting_and_filtering(qtbot, window, folder, reference, tmp_path):
     assert sorted(_shown(page, HEADERS.index("file"))) == ["empty.csv", "noise.dat"]
     assert set(_shown(page, HEADERS.index("status"))) == {"failed"}
     assert page.shown_label.text() == f"2 of {len(reference.rows)} rows"
-    page.ask_save_path = lambda: str(tmp_path / "failed.csv")  # the table as shown is what is saved
+    page.ask_save_path = lambda kind: str(tmp_path / f"failed.{kind}")  # the table as shown is what is saved
     page.save_button.click()
     with open(tmp_path / "failed.csv", newline="", encoding="utf-8") as handle:
         saved = list(csv.DictReader(handle))
     assert sorted(Path(r["file"]).name for r in saved) == ["empty.csv", "noise.dat"]
+    page.overview_button.click()
+    overview = (tmp_path / "failed.html").read_text(encoding="utf-8")
+    assert "noise.dat" in overview and "sizer.tsv" not in overview
     page.status_filter.setCurrentIndex(0)
     page.filter_text.setText("PONDS width")  # every word, ignoring case
     assert _shown(page, HEADERS.index("column")) == ["width_mm"]

@@ -26,6 +26,7 @@ from .engine.scan import ScanResult
 from .atomic import write_text_atomic
 from .errors import FileFormatError, InputError
 from .io import Measurements, read_measurements
+from .saved_layout import check_analysis_file, data_problem, settings_problem, whole_number
 
 __all__ = ["DataChoice", "ScanSettings", "Analysis", "ANALYSIS_SUFFIX", "FORMAT_VERSION", "SourceChangedError"]
 
@@ -351,6 +352,7 @@ class Analysis:
         """
         path = Path(path)
         try:
+            check_analysis_file(path)
             raw = json.loads(path.read_text(encoding="utf-8"))
         except FileNotFoundError:
             raise InputError(f"There is no analysis file {path}; check the name and folder.") from None
@@ -433,45 +435,13 @@ def _parse_saved(raw, path) -> dict:
         if not isinstance(source, dict) or not isinstance(source.get("path"), str) or "sha256" not in source:
             raise bad
         if choice is not None and (not isinstance(choice, list) or len(choice) != 2
-                                   or not _whole(choice[0], 1) or choice[1] not in ("separate", "shared")):
+                                   or not whole_number(choice[0], 1) or choice[1] not in ("separate", "shared")):
             raise bad
     except (KeyError, TypeError):
         raise bad from None
-    problem = _settings_problem(settings) or _data_problem(data)
+    problem = settings_problem(settings, ScanSettings.kmax) or data_problem(data)
     if problem:
         raise FileFormatError(f"{path.name} holds settings that cannot be used ({problem}); the file was "
                               "edited or damaged, so open the data file itself instead.")
     return {"source": source, "data": data, "settings": settings, "choice": choice}
 
-
-def _whole(value, low: int) -> bool:
-    """A whole number (not a bool) of at least ``low``."""
-    return isinstance(value, int) and not isinstance(value, bool) and value >= low
-
-
-def _settings_problem(settings: dict) -> str:
-    """What is wrong with saved scan settings ('' when nothing)."""
-    for name, low in (("kmin", 1), ("kmax", 1), ("restarts", 1), ("seed", 0)):
-        if name in settings and not _whole(settings[name], low):
-            return f"{name} is {settings[name]!r}, not a whole number >= {low}"
-    if settings.get("kmin", 1) > settings.get("kmax", ScanSettings.kmax):
-        return f"kmin {settings.get('kmin')} is larger than kmax {settings.get('kmax', ScanSettings.kmax)}"
-    if settings.get("widths", "both") not in ("separate", "shared", "both"):
-        return f"widths is {settings['widths']!r}"
-    return ""
-
-
-def _data_problem(data: dict) -> str:
-    """What is wrong with a saved data choice ('' when nothing)."""
-    for name in ("column", "counts", "sheet"):
-        value = data.get(name)
-        if value is not None and (isinstance(value, bool) or not isinstance(value, (str, int))
-                                  or (isinstance(value, int) and value < 0)):
-            return f"{name} is {value!r}"
-    for name in ("low", "high"):
-        value = data.get(name)
-        if value is not None and (isinstance(value, bool) or not isinstance(value, (int, float))):
-            return f"{name} is {value!r}"
-    if data.get("scale", "linear") not in ("linear", "ln", "log10"):
-        return f"scale is {data['scale']!r}"
-    return ""

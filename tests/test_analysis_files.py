@@ -2,7 +2,8 @@
 
 Each problem must give an InputError (FileFormatError for the file itself)
 with one sentence that names the problem and what to try, and opening must
-never write: the analysis file and its source keep their bytes.
+never write: the analysis file and its source keep their bytes. The checks
+live in clusterdesk/analysis.py and clusterdesk/saved_layout.py.
 """
 
 from __future__ import annotations
@@ -131,3 +132,15 @@ def test_a_changed_source_is_refused_unless_accepted(saved):
     assert "lake.csv" in message and "study.cdesk" in message
     opened = Analysis.open(path, accept_changed_source=True)
     assert opened.source_changed and opened.analysis.choice == (2, "shared")
+
+
+def test_a_huge_file_or_a_pipe_is_refused_without_reading_it(saved, tmp_path):
+    import os
+
+    path, source = saved
+    path.write_bytes(path.read_bytes() + b" " * (2 << 20))  # valid JSON, padded past the limit
+    assert "far more than a saved analysis" in _refused(path, source)
+    if hasattr(os, "mkfifo"):
+        pipe = tmp_path / "pipe.cdesk"
+        os.mkfifo(pipe)  # reading it would wait for a writer for ever
+        assert "not a regular file" in _refused(pipe, source)

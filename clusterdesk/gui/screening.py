@@ -321,7 +321,8 @@ class ScreeningView(QWidget):
         self.progress.setFormat(f"%v of %m{'+' if p.files_to_list else ''} columns")
         failed = f", {p.failed} failed" if p.failed else ""
         pace = f" · {p.computed / p.elapsed:.2f} columns/s" if p.computed and p.elapsed > 0 else ""
-        self.progress_label.setText(f"{p.done:,} of {p.total:,} columns done{failed}{pace} · "
+        about = "about " if p.files_to_list else ""  # files not listed yet: the total is an estimate
+        self.progress_label.setText(f"{p.done:,} of {about}{p.total:,} columns done{failed}{pace} · "
                                     f"time left: {format_duration(p.seconds_left)}")
 
     def _take_result(self, result) -> None:

@@ -10,7 +10,7 @@ import numpy as np
 import pytest
 
 import clusterdesk
-from clusterdesk.analysis import ANALYSIS_SUFFIX, Analysis, DataChoice, ScanSettings
+from clusterdesk.analysis import ANALYSIS_SUFFIX, Analysis, DataChoice, ScanSettings, SourceChangedError
 from clusterdesk.errors import FileFormatError, InputError
 
 SAMPLES = Path(__file__).resolve().parents[1] / "sample_data"
@@ -73,7 +73,9 @@ def test_reopen_reports_a_changed_source(lake, tmp_path):
     saved = analysis.save(tmp_path / "study.cdesk")
     with open(lake, "a", encoding="utf-8") as handle:
         handle.write("F9999,N1,150\n")
-    assert Analysis.open(saved).source_changed
+    with pytest.raises(SourceChangedError, match="changed since"):
+        Analysis.open(saved)
+    assert Analysis.open(saved, accept_changed_source=True).source_changed
 
 
 @pytest.mark.parametrize("content", ["", "{", "[1, 2]", '{"format": "something else"}',

@@ -15,6 +15,7 @@ from PySide6.QtWidgets import (QAbstractItemView, QComboBox, QFormLayout, QGroup
                                QTableWidgetItem, QVBoxLayout)
 
 from ..analysis import DataChoice, ScanSettings
+from .seedbox import SeedBox
 
 __all__ = ["DataPanel", "FitPanel", "SCALE_CHOICES", "WIDTH_CHOICES", "choice_box"]
 
@@ -310,8 +311,7 @@ class FitPanel(QGroupBox):
         self.restarts = QSpinBox()
         self.restarts.setRange(1, 200)
         self.restarts.setToolTip("Starting points per model; more restarts make a poor local fit less likely.")
-        self.seed = QSpinBox()
-        self.seed.setRange(0, 2_000_000_000)
+        self.seed = SeedBox()  # seeds of screened columns go up to 2**63 - 1
         self.seed.setToolTip("Random seed of the starting points: the same seed gives the same numbers.")
         self.fit_button = QPushButton("Fit models")
         self.fit_button.setToolTip("Fit every component count in the range and rank the models by BIC.")

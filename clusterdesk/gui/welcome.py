@@ -22,6 +22,8 @@ class WelcomePage(QWidget):
         The user wants the open dialog.
     pasteRequested()
         The user wants to paste a column from the clipboard.
+    screenRequested()
+        The user wants the screening page (many files and columns).
     pathChosen(str, object)
         A recent file or a sample (with its :class:`~clusterdesk.analysis.DataChoice`,
         or None for a recent file) was picked.
@@ -34,6 +36,7 @@ class WelcomePage(QWidget):
 
     openRequested = Signal()
     pasteRequested = Signal()
+    screenRequested = Signal()
     pathChosen = Signal(str, object)
 
     def __init__(self, parent=None):
@@ -53,6 +56,11 @@ class WelcomePage(QWidget):
         buttons = QHBoxLayout()
         buttons.addWidget(self.open_button)
         buttons.addWidget(self.paste_button)
+        self.screen_button = QPushButton("Screen many files…")
+        self.screen_button.setToolTip("Screen every numeric column of a folder or of several files into one "
+                                      "table, then open any column as an analysis.")
+        self.screen_button.clicked.connect(self.screenRequested)
+        buttons.addWidget(self.screen_button)
         buttons.addStretch(1)
 
         self.sample_buttons = []

@@ -20,9 +20,12 @@ from ..report.tables import components_table
 from .dialogs import MessageBar
 from .errors import describe_error
 from .export import report_writer
+from .file_problems import AnalysisFileProblems
 from .panels import DataPanel, FitPanel
 from .plots import CriteriaView, DistributionView, QQView
 from .results import ComponentsPanel, RankingPanel, caution_label
+from .screening import ScreeningView
+from .screening_flow import ScreeningWorkflow
 from .settings import Memory
 from .tasks import LatestJobs, TaskRunner
 from .welcome import WelcomePage
@@ -34,7 +37,7 @@ __all__ = ["MainWindow", "SYNC_VALUES"]
 SYNC_VALUES = 50_000
 
 
-class MainWindow(Workflow, QMainWindow):
+class MainWindow(Workflow, ScreeningWorkflow, AnalysisFileProblems, QMainWindow):
     """The ClusterDesk window.
 
     Parameters
@@ -115,6 +118,8 @@ class MainWindow(Workflow, QMainWindow):
         self.stack = QStackedWidget()
         self.stack.addWidget(self.welcome)
         self.stack.addWidget(self.side_splitter)
+        self.screening = ScreeningView()
+        self.stack.addWidget(self.screening)
         central = QWidget()
         layout = QVBoxLayout(central)
         layout.setContentsMargins(4, 4, 4, 0)
@@ -174,6 +179,9 @@ class MainWindow(Workflow, QMainWindow):
         self.excluded_action = self._action("Show &excluded rows…", self.show_excluded)
         self.reset_view_action = self._action("&Reset plot view", self.reset_current_plot, QKeySequence("Ctrl+0"))
         self.start_action = self._action("&Start screen", lambda: self.stack.setCurrentIndex(0))
+        self.screening_action = self._action("Screen &many files…", self.show_screening, QKeySequence("Ctrl+M"),
+                                             "Screen every numeric column of a folder or of several files "
+                                             "into one table.")
         self.about_action = self._action("&About ClusterDesk", self.show_about)
 
     def _build_menus(self) -> None:
@@ -182,6 +190,7 @@ class MainWindow(Workflow, QMainWindow):
         file_menu.addAction(self.open_action)
         self.recent_menu = file_menu.addMenu("Open &recent")
         file_menu.addAction(self.paste_action)
+        file_menu.addAction(self.screening_action)
         file_menu.addSeparator()
         file_menu.addAction(self.save_action)
         file_menu.addAction(self.save_as_action)
@@ -201,6 +210,7 @@ class MainWindow(Workflow, QMainWindow):
         view_menu = bar.addMenu("&View")
         view_menu.addAction(self.reset_view_action)
         view_menu.addAction(self.start_action)
+        view_menu.addAction(self.screening_action)
         help_menu = bar.addMenu("&Help")
         help_menu.addAction(self.about_action)
 
@@ -220,6 +230,9 @@ class MainWindow(Workflow, QMainWindow):
         self.runner.finished.connect(self._task_finished)
         self.qq.checkWanted.connect(self.request_fit_check)
         self.view_jobs.finished.connect(self._view_job_finished)
+        self.welcome.screenRequested.connect(self.show_screening)
+        self.screening.openRequested.connect(self.open_screened_row)
+        self.screening.backRequested.connect(self.leave_screening)
 
     # -------------------------------------------------------------- showing
     def status(self, text: str) -> None:
@@ -416,8 +429,9 @@ class MainWindow(Workflow, QMainWindow):
 
     def closeEvent(self, event) -> None:  # noqa: N802
         """Cancel running work, wait for its thread, remember the geometry, then close."""
-        if self.runner.busy or self.view_jobs.busy:
+        if self.runner.busy or self.view_jobs.busy or self.screening.busy:
             self.status("Stopping the running work before closing…")
+        self.screening.shutdown()
         self.runner.shutdown()
         self.view_jobs.shutdown()
         self.memory.save_geometry(self.saveGeometry(), self.saveState())

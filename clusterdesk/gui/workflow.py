@@ -307,6 +307,7 @@ class Workflow:
         path = Path(path)
         if not path.name.endswith(ANALYSIS_SUFFIX):
             path = path.with_name(path.name + ANALYSIS_SUFFIX)
+        renamed = a.source_path is None
         if a.source_path is None and self.pasted_text is not None:
             # Pasted values have no file to re-read: keep them beside the analysis.
             values = path.with_name(path.name[: -len(ANALYSIS_SUFFIX)] + "-values.txt")
@@ -315,10 +316,16 @@ class Workflow:
         saved = a.save(path)
         self.saved_path = str(saved)
         self._remember(saved)
+        if renamed:  # the pasted values now have a file: the title and data panel name it
+            self.refresh()
         self.status(f"Saved the analysis to {saved}.")
 
-    def open_analysis(self, path) -> None:
-        """Reopen a saved analysis on the worker: re-read its source, refit, restore the choice."""
+    def open_analysis(self, path, accept_changed_source: bool = False) -> None:
+        """Reopen a saved analysis on the worker: re-read its source, refit, restore the choice.
+
+        A problem (a damaged file, a missing or changed source) is shown in a
+        message box and the analysis shown is kept.
+        """
         if self.runner.busy:
             return
         self.task_unit = "models fitted"
@@ -339,7 +346,9 @@ class Workflow:
             self.status(f"Reopened {Path(path).name}.")
 
         self.runner.start(f"Reopening {Path(path).name}",
-                          lambda p, c: Analysis.open(path, progress=p, cancel=c), apply)
+                          lambda p, c: Analysis.open(path, accept_changed_source=accept_changed_source,
+                                                    progress=p, cancel=c),
+                          apply, self.analysis_file_refused)
 
     # ---------------------------------------------------------------- exports
     def _suggested(self, suffix: str) -> str:

@@ -173,6 +173,9 @@ def _load(source, text) -> _Source:
         raise InputError(f"There is no file at {str(path)!r}; check the path (to read pasted text, pass text=...).")
     if path.is_dir():
         raise InputError(f"{str(path)!r} is a folder, not a file; choose a CSV, text or XLSX file inside it.")
+    if not path.is_file():  # a pipe, socket or device: reading it could wait for ever
+        raise InputError(f"{where} is not a regular file (a pipe, socket or device); "
+                         "copy its contents into a file and open that.")
     try:
         data = path.read_bytes()
     except OSError as exc:

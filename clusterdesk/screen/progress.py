@@ -38,6 +38,11 @@ class ScreenProgress:
         Seconds since the run started.
     seconds_left : float or None
         Estimated seconds to the end (None until a column is fitted).
+    new_rows : tuple of ScreenRow, default ()
+        Rows that became known since the previous report (finished columns,
+        columns reused from the journal, files and columns that failed or were
+        skipped), in the order they became known; a front end that shows the
+        table filling in appends them.
     """
 
     done: int
@@ -47,6 +52,7 @@ class ScreenProgress:
     files_to_list: int
     elapsed: float
     seconds_left: float | None
+    new_rows: tuple = ()
 
 
 def format_duration(seconds: float | None) -> str:

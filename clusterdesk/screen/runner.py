@@ -169,7 +169,8 @@ def _report(progress, sched: Scheduler, started: float) -> None:
     estimate = known + int(round(sched.files_to_list() * known / listed))
     progress(ScreenProgress(done=done, total=max(estimate, done), computed=sched.computed,
                             failed=sched.failed, files_to_list=sched.files_to_list(),
-                            elapsed=time.monotonic() - started, seconds_left=_seconds_left(sched, started)))
+                            elapsed=time.monotonic() - started, seconds_left=_seconds_left(sched, started),
+                            new_rows=tuple(sched.take_new_rows())))
 
 
 def _journal_events(journal, events) -> None:

@@ -92,6 +92,7 @@ class Scheduler:
         self.computed = 0
         self.failed = sum(1 for f in self._files if f.ref.problem)
         self.files_listed = self.failed
+        self._new_rows: list[ScreenRow] = [_problem_row(f.ref) for f in self._files if f.ref.problem]
         for f in self._files:
             listing = (known_listings or {}).get(f.ref.path)
             if listing is not None and not f.ref.problem:
@@ -106,11 +107,13 @@ class Scheduler:
             if not isinstance(entry, ColumnTask):
                 if entry.status == "failed":
                     self.failed += 1
+                self._new_rows.append(entry)
                 continue
             f.tasks += 1
             known = self._known_rows.get((entry.key, entry.sha256))
             if known is not None:
                 self.results[entry.key] = known
+                self._new_rows.append(known)
                 self.reused += 1
                 self.failed += known.status == "failed"
             else:
@@ -186,6 +189,7 @@ class Scheduler:
         if task.key in self.results:
             return []
         self.results[task.key] = row
+        self._new_rows.append(row)
         self.computed += 1
         self.failed += row.status == "failed"
         return [Event("row", task=task, row=row, durable=durable)]
@@ -204,13 +208,17 @@ class Scheduler:
         """Files whose columns are not known yet."""
         return len(self._files) - self.files_listed
 
+    def take_new_rows(self) -> list[ScreenRow]:
+        """The rows that became known since the last call (in the order they became known)."""
+        fresh, self._new_rows = self._new_rows, []
+        return fresh
+
     def rows(self) -> list[ScreenRow]:
         """Every row so far, in task order (unfinished columns are left out)."""
         out = []
         for f in self._files:
             if f.ref.problem:
-                out.append(ScreenRow(file=f.ref.file, sheet="", column="", position=None, status="failed",
-                                     reason=f.ref.problem))
+                out.append(_problem_row(f.ref))
                 continue
             for entry in f.entries:
                 if isinstance(entry, ColumnTask):
@@ -219,3 +227,8 @@ class Scheduler:
                 else:
                     out.append(entry)
         return out
+
+
+def _problem_row(ref: FileRef) -> ScreenRow:
+    """The row of an input that gave no file (missing, a pattern that matched nothing)."""
+    return ScreenRow(file=ref.file, sheet="", column="", position=None, status="failed", reason=ref.problem)

@@ -146,10 +146,14 @@ def test_open_fit_choose_intervals_export_save_reopen(qtbot, window, tmp_path, m
     np.testing.assert_array_equal(shown_components(window)["mean"], chosen.mixture.means)
     assert not window.message_bar.isVisible()
 
-    # A source changed since saving is read all the same, with a warning.
+    # A source changed since saving: a box says so and offers to open it anyway, with a warning.
     with open(source, "a", encoding="utf-8") as handle:
         handle.write("F9999,N1,150\n")
-    run(qtbot, window, lambda: window.open_path(str(saved)))
+    assert run(qtbot, window, lambda: window.open_path(str(saved))).status == "failed"
+    box = window.analysis_file_box
+    assert box.isVisible() and "changed since" in box.text() and window.analysis is again
+    anyway = next(b for b in box.buttons() if b.text() == "Open anyway")
+    assert run(qtbot, window, anyway.click).status == "done"
     assert window.message_bar.level == "warning" and "changed since" in window.message_bar.text()
     assert window.analysis.measurements.n == 601
 

@@ -6,6 +6,7 @@ No other exception may escape (a library traceback is never the user's interface
 from __future__ import annotations
 
 import io
+import os
 import zipfile
 
 import numpy as np
@@ -125,3 +126,11 @@ def test_missing_file_and_folder(tmp_path):
         read_measurements(tmp_path)
     with pytest.raises(InputError, match="must be a path"):
         read_measurements(12)
+
+
+@pytest.mark.skipif(not hasattr(os, "mkfifo"), reason="needs named pipes (POSIX)")
+def test_a_named_pipe_is_refused_instead_of_waiting_for_ever(tmp_path):
+    pipe = tmp_path / "pipe.csv"
+    os.mkfifo(pipe)  # nobody writes to it: reading it would block
+    with pytest.raises(InputError, match="not a regular file"):
+        read_measurements(pipe)

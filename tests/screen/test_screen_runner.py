@@ -50,10 +50,21 @@ def test_folder_screens_to_completion_with_a_reason_for_every_failure(inputs, re
     assert tuple(table[0]) == summary_header() and len(table) == 1 + len(result.rows)
 
 
-def test_permission_denied_file_fails_with_its_reason(inputs):
+def test_permission_denied_file_fails_with_its_reason(inputs, monkeypatch):
     _, files = inputs
     if locked_is_readable(files["locked.csv"]):
-        pytest.skip("chmod 000 does not stop this user (running as root), so the file is readable")
+        # chmod 000 does not stop this user (root): refuse the read the way the system would.
+        import errno
+        import pathlib
+
+        real, locked = pathlib.Path.read_bytes, files["locked.csv"]
+
+        def read_bytes(self):
+            if self == locked:
+                raise PermissionError(errno.EACCES, "Permission denied", str(self))
+            return real(self)
+
+        monkeypatch.setattr(pathlib.Path, "read_bytes", read_bytes)
     result = screen([files["locked.csv"]], settings=SETTINGS, workers=1)
     assert result.rows[0].status == "failed" and "could not be opened" in result.rows[0].reason
 

@@ -125,6 +125,9 @@ class FittedModel:
         Every restart ended degenerate; the numbers describe a spurious fit.
     notes : tuple of str
         Plain-words remarks on the fit (no convergence, collapse, ...).
+    likelihood : {"exact", "intervals"}, default "exact"
+        Which likelihood was maximised: of exact values (densities), or of
+        intervals (probabilities of ``[a, b)``, :mod:`.grouped`).
     """
 
     mixture: Mixture
@@ -143,6 +146,7 @@ class FittedModel:
     restarts_agreeing: int
     collapsed: bool
     notes: tuple = ()
+    likelihood: str = "exact"
 
     @property
     def min_weight(self) -> float:
@@ -200,6 +204,10 @@ def fit_model(sample: Sample, k: int, widths: str, rng: np.random.Generator,
     -------
     FittedModel
     """
+    if sample.is_intervals:
+        from .grouped import fit_intervals  # interval data: the likelihood of McLachlan & Jones
+
+        return fit_intervals(sample, k, widths, rng, settings, cancel)
     data = standardise(sample, settings)
     shared = widths == "shared"
     if sample.n_distinct > settings.bin_above:
@@ -364,8 +372,6 @@ def _finish(data, sample, result, best, k, widths, agreeing, restarts, collapsed
                       sds=scale * np.sqrt(result.variances[best]))
     loglik = float(result.loglik[best]) - data.n * np.log(scale)
     entropy = criteria.posterior_entropy(mixture.posterior(sample.values), sample.counts)
-    n_params = criteria.n_parameters(k, widths)
-    bic = criteria.bic(loglik, n_params, data.n)
     notes = []
     converged = bool(result.converged[best])
     if not converged:
@@ -375,8 +381,18 @@ def _finish(data, sample, result, best, k, widths, agreeing, restarts, collapsed
     if collapsed:
         notes.append("Every restart ended with a component squeezed onto a few values "
                      "(a spurious maximum); this model is not a credible description.")
-    return FittedModel(mixture=mixture, k=k, widths=widths, loglik=loglik, n=data.n,
+    return model_with_criteria(mixture, k, widths, loglik, data.n, entropy, converged=converged,
+                               iterations=int(result.iterations[best]), restarts=restarts,
+                               agreeing=agreeing, collapsed=collapsed, notes=notes)
+
+
+def model_with_criteria(mixture, k, widths, loglik, n, entropy, *, converged, iterations, restarts,
+                        agreeing, collapsed, notes, likelihood="exact") -> FittedModel:
+    """A :class:`FittedModel` with its parameter count, BIC, AIC and ICL computed."""
+    n_params = criteria.n_parameters(k, widths)
+    bic = criteria.bic(loglik, n_params, n)
+    return FittedModel(mixture=mixture, k=k, widths=widths, loglik=loglik, n=n,
                        n_params=n_params, bic=bic, aic=criteria.aic(loglik, n_params),
                        icl=criteria.icl(bic, entropy), entropy=entropy, converged=converged,
-                       iterations=int(result.iterations[best]), restarts=restarts,
-                       restarts_agreeing=agreeing, collapsed=collapsed, notes=tuple(notes))
+                       iterations=iterations, restarts=restarts, restarts_agreeing=agreeing,
+                       collapsed=collapsed, notes=tuple(notes), likelihood=likelihood)

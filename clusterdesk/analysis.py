@@ -68,6 +68,13 @@ class ScanSettings:
     widths : {"separate", "shared", "both"}, default "both"
     restarts : int, default 10
     seed : int, default 0
+    treatment : {"auto", "exact", "intervals"}, default "auto"
+        Fit the likelihood of exact values or of intervals (each value known
+        only to lie within the resolution); ``"auto"`` decides from the
+        resolution (see :mod:`clusterdesk.engine.treatment`).
+    resolution : float or None, default None
+        Recording step (or class width) on the original scale; None: the one
+        detected when the values were read.
     """
 
     kmin: int = 1
@@ -75,6 +82,8 @@ class ScanSettings:
     widths: str = "both"
     restarts: int = 10
     seed: int = 0
+    treatment: str = "auto"
+    resolution: float | None = None
 
 
 @dataclass
@@ -141,12 +150,39 @@ class Analysis:
         m = self._need_measurements()
         return m.fit_values, m.counts
 
+    def interval_input(self, settings: ScanSettings | None = None) -> dict:
+        """The resolution or interval ends handed to the engine, on the analysis scale.
+
+        Each kept value ``x`` lies in ``[x - h/2, x + h/2)`` on the original
+        scale (``h`` the settings' resolution, else the detected one); on a log
+        scale the ends are transformed, an end at or below zero becoming
+        ``-inf``.
+
+        Returns
+        -------
+        dict
+            ``resolution`` (float or None) and ``bounds`` ((lower, upper) or None),
+            as :func:`clusterdesk.scan` takes them.
+        """
+        m = self._need_measurements()
+        s = self.settings if settings is None else settings
+        step = s.resolution if s.resolution is not None else m.resolution
+        if step is None or s.treatment == "exact":
+            return {"resolution": None, "bounds": None}
+        if m.scale == "linear":
+            return {"resolution": step, "bounds": None}
+        log = np.log if m.scale == "ln" else np.log10
+        with np.errstate(divide="ignore", invalid="ignore"):
+            lower = np.where(m.values - step / 2 > 0, log(np.maximum(m.values - step / 2, 0.0)), -np.inf)
+        return {"resolution": None, "bounds": (lower, log(m.values + step / 2))}
+
     def compute_scan(self, settings: ScanSettings | None = None, progress=None, cancel=None) -> ScanResult:
         """Run the scan and return it, without changing the analysis."""
         s = self.settings if settings is None else settings
         values, counts = self.fit_input()
         return run_scan(values, counts=counts, kmin=s.kmin, kmax=s.kmax, widths=s.widths, restarts=s.restarts, seed=s.seed,
-                        progress=progress, cancel=cancel)
+                        progress=progress, cancel=cancel, treatment=s.treatment,
+                        **self.interval_input(s))
 
     def apply_scan(self, result: ScanResult, settings: ScanSettings | None = None) -> None:
         """Make a computed scan the analysis's scan; the choice returns to the best model."""
@@ -196,7 +232,8 @@ class Analysis:
         values, counts = self.fit_input()
         seed = self.settings.seed if seed is None else seed
         return run_bootstrap(values, self.chosen, counts=counts, replicates=replicates, method=method,
-                             level=level, seed=seed, progress=progress, cancel=cancel)
+                             level=level, seed=seed, progress=progress, cancel=cancel,
+                             **self.interval_input())
 
     def apply_intervals(self, result) -> None:
         """Keep computed intervals for the model they belong to (the chosen one when computed)."""

@@ -211,7 +211,7 @@ class MainWindow(Workflow, QMainWindow):
         self.welcome.pathChosen.connect(lambda path, data: self.open_path(path, data))
         self.data_panel.choiceChanged.connect(self.change_data)
         self.data_panel.excludedRequested.connect(self.show_excluded)
-        self.fit_panel.fitRequested.connect(self.fit)
+        self.fit_panel.fitRequested.connect(lambda _settings: self.fit_from_panel())
         self.ranking.modelChosen.connect(self.choose)
         self.components.intervalsRequested.connect(self.estimate_intervals)
         self.cancel_button.clicked.connect(self.runner.cancel)

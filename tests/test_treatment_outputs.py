@@ -1,0 +1,72 @@
+"""Every output says which likelihood was used: CLI text, ranking.csv, summary.json, report, .cdesk.
+
+The samples are synthetic (sample_data/make_samples.py). The lake lengths are
+recorded to whole millimetres, so the automatic treatment takes them as
+intervals of width 1; `--values-as exact` overrides it. For the interval
+ends on a log scale the reference is numpy's log of x -/+ h/2 (definition).
+"""
+
+from __future__ import annotations
+
+import csv
+import json
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from clusterdesk.analysis import Analysis, DataChoice, ScanSettings
+from clusterdesk.cli import main
+
+SAMPLES = Path(__file__).resolve().parents[1] / "sample_data"
+LAKE = ["fit", str(SAMPLES / "lake_net_lengths.csv"), "--column", "length_mm", "--kmax", "3",
+        "--restarts", "3"]
+
+
+def _rows(path):
+    with open(path, encoding="utf-8", newline="") as handle:
+        return list(csv.DictReader(handle))
+
+
+def test_cli_states_the_automatic_treatment_everywhere(tmp_path, capsys):
+    report = tmp_path / "lake.html"
+    assert main(LAKE + ["--out", str(tmp_path / "out"), "--report", str(report)]) == 0
+    out = capsys.readouterr().out
+    assert "Values treated as: Likelihood of intervals of width 1 (chosen automatically)" in out
+    assert {row["likelihood"] for row in _rows(tmp_path / "out" / "ranking.csv")} == {"intervals"}
+    summary = json.loads((tmp_path / "out" / "summary.json").read_text(encoding="utf-8"))
+    assert summary["treatment"]["used"] == "intervals" and summary["treatment"]["resolution"] == 1.0
+    assert summary["settings"]["treatment"] == "auto"
+    assert "Likelihood of intervals of width 1" in report.read_text(encoding="utf-8")
+
+
+def test_cli_override_to_exact_values(tmp_path, capsys):
+    assert main(LAKE + ["--values-as", "exact", "--out", str(tmp_path)]) == 0
+    assert "Values treated as: Likelihood of exact values (as requested)" in capsys.readouterr().out
+    assert {row["likelihood"] for row in _rows(tmp_path / "ranking.csv")} == {"exact"}
+    summary = json.loads((tmp_path / "summary.json").read_text(encoding="utf-8"))
+    assert summary["treatment"]["used"] == "exact" and summary["settings"]["treatment"] == "exact"
+
+
+def test_cli_rejects_an_unknown_treatment(capsys):
+    with pytest.raises(SystemExit) as stop:
+        main(LAKE + ["--values-as", "rounded"])
+    assert stop.value.code == 2
+    assert "--values-as" in capsys.readouterr().err
+
+
+def test_log_scale_intervals_are_the_transformed_ends(tmp_path):
+    data = DataChoice(column="diameter_um", scale="ln")
+    settings = ScanSettings(kmax=2, restarts=2, widths="separate", treatment="intervals")
+    analysis = Analysis.from_file(SAMPLES / "powder_diameters.csv", data, settings)
+    given = analysis.interval_input()
+    m = analysis.measurements
+    assert given["resolution"] is None
+    np.testing.assert_allclose(given["bounds"][0], np.log(m.values - 0.005))
+    np.testing.assert_allclose(given["bounds"][1], np.log(m.values + 0.005))
+    analysis.run_scan()
+    assert analysis.scan.treatment.used == "intervals"
+    boot = analysis.run_intervals(replicates=20)
+    assert boot.path == "intervals"
+    saved = json.loads(analysis.save(tmp_path / "powder").read_text(encoding="utf-8"))
+    assert saved["settings"]["treatment"] == "intervals"

@@ -26,6 +26,7 @@ from .engine.scan import ScanResult
 from .atomic import write_text_atomic
 from .errors import FileFormatError, InputError
 from .io import Measurements, read_measurements
+from .io import reasons as R
 
 __all__ = ["DataChoice", "ScanSettings", "Analysis", "ANALYSIS_SUFFIX", "FORMAT_VERSION"]
 
@@ -176,13 +177,58 @@ class Analysis:
             lower = np.where(m.values - step / 2 > 0, log(np.maximum(m.values - step / 2, 0.0)), -np.inf)
         return {"resolution": None, "bounds": (lower, log(m.values + step / 2))}
 
+    def likelihood_input(self, settings: ScanSettings | None = None) -> dict:
+        """Everything the likelihood is computed from: ``values``, ``counts``, ``resolution``, ``bounds``.
+
+        Kept values with their resolution (:meth:`interval_input`); and when
+        they are treated as intervals (any treatment but ``"exact"``, with a
+        resolution known), the rows excluded as below a detection limit (or
+        above a reporting limit) enter as censored intervals ``(-inf, limit)``
+        (``(limit, inf)``) instead of being dropped.
+        """
+        values, counts = self.fit_input()
+        given = self.interval_input(settings)
+        limits, ends, limit_counts = self._censored_rows()
+        if limits.size == 0 or (given["resolution"] is None and given["bounds"] is None):
+            return {"values": values, "counts": counts, **given}
+        if given["bounds"] is None:
+            step = given["resolution"]
+            lower, upper = values - step / 2, values + step / 2
+        else:
+            lower, upper = given["bounds"]
+        below = ends < 0
+        kept_counts = np.ones(values.size) if counts is None else counts
+        return {"values": np.concatenate([values, limits]),
+                "counts": np.concatenate([kept_counts, limit_counts]),
+                "resolution": None,
+                "bounds": (np.concatenate([lower, np.where(below, -np.inf, limits)]),
+                           np.concatenate([upper, np.where(below, limits, np.inf)]))}
+
+    def _censored_rows(self):
+        """Limits (analysis scale), side (-1 below, +1 above) and counts of detection-limit rows."""
+        m = self._need_measurements()
+        rows = m.rows
+        side = np.where(rows.reason == R.BELOW_LIMIT, -1, np.where(rows.reason == R.ABOVE_LIMIT, 1, 0))
+        limits = rows.value
+        usable = (side != 0) & np.isfinite(limits)
+        if m.scale != "linear":
+            usable &= limits > 0
+        if rows.count is not None:
+            usable &= np.isfinite(rows.count) & (rows.count > 0)
+        limits = limits[usable]
+        if m.scale == "ln":
+            limits = np.log(limits)
+        elif m.scale == "log10":
+            limits = np.log10(limits)
+        counts = np.ones(limits.size) if rows.count is None else rows.count[usable]
+        return limits, side[usable], counts
+
     def compute_scan(self, settings: ScanSettings | None = None, progress=None, cancel=None) -> ScanResult:
         """Run the scan and return it, without changing the analysis."""
         s = self.settings if settings is None else settings
-        values, counts = self.fit_input()
-        return run_scan(values, counts=counts, kmin=s.kmin, kmax=s.kmax, widths=s.widths, restarts=s.restarts, seed=s.seed,
+        return run_scan(kmin=s.kmin, kmax=s.kmax, widths=s.widths, restarts=s.restarts, seed=s.seed,
                         progress=progress, cancel=cancel, treatment=s.treatment,
-                        **self.interval_input(s))
+                        **self.likelihood_input(s))
 
     def apply_scan(self, result: ScanResult, settings: ScanSettings | None = None) -> None:
         """Make a computed scan the analysis's scan; the choice returns to the best model."""
@@ -229,11 +275,12 @@ class Analysis:
         -------
         BootstrapResult
         """
-        values, counts = self.fit_input()
         seed = self.settings.seed if seed is None else seed
-        return run_bootstrap(values, self.chosen, counts=counts, replicates=replicates, method=method,
-                             level=level, seed=seed, progress=progress, cancel=cancel,
-                             **self.interval_input())
+        given = self.likelihood_input()
+        if self.chosen.likelihood == "exact":
+            given = {"values": given["values"], "counts": given["counts"]}
+        return run_bootstrap(model=self.chosen, replicates=replicates, method=method,
+                             level=level, seed=seed, progress=progress, cancel=cancel, **given)
 
     def apply_intervals(self, result) -> None:
         """Keep computed intervals for the model they belong to (the chosen one when computed)."""

@@ -70,3 +70,31 @@ def test_log_scale_intervals_are_the_transformed_ends(tmp_path):
     assert boot.path == "intervals"
     saved = json.loads(analysis.save(tmp_path / "powder").read_text(encoding="utf-8"))
     assert saved["settings"]["treatment"] == "intervals"
+
+
+def test_below_detection_rows_enter_the_serosurvey_fit_as_censored_intervals():
+    # Source of the truth: sample_data/README.md (synthetic generator): on
+    # log10, negatives w 0.78, mean 0.0, sd 0.25; positives w 0.22, mean 1.2,
+    # sd 0.35; 75 readings below the detection limit 0.5 written as "<0.5".
+    data = DataChoice(column="antibody_au", scale="log10")
+    settings = ScanSettings(kmax=4, restarts=5, widths="separate")
+    analysis = Analysis.from_file(SAMPLES / "serosurvey_antibody.csv", data, settings)
+    analysis.run_scan()
+    scan = analysis.scan
+    assert scan.treatment.used == "intervals" and scan.treatment.censored == 75
+    assert scan.n == 800
+    best = scan.best
+    assert best.k == 2 and best.likelihood == "intervals"
+    np.testing.assert_allclose(best.mixture.means, [0.0, 1.2], atol=0.1)
+    np.testing.assert_allclose(best.mixture.sds, [0.25, 0.35], atol=0.05)
+    np.testing.assert_allclose(best.mixture.weights, [0.78, 0.22], atol=0.05)
+    # Dropping the censored rows (values taken as exact) shifts the negative
+    # group up: the censored fit is closer to the generating mean.
+    dropped = Analysis.from_file(SAMPLES / "serosurvey_antibody.csv", data,
+                                 ScanSettings(kmax=2, kmin=2, restarts=5, widths="separate",
+                                              treatment="exact"))
+    dropped.run_scan()
+    assert dropped.scan.n == 725
+    assert abs(best.mixture.means[0]) < abs(dropped.scan.best.mixture.means[0])
+    boot = analysis.run_intervals(replicates=20)
+    assert boot.path == "intervals" and boot.mean_interval.shape == (2, 2)

@@ -162,6 +162,7 @@ class _Standardised:
     center: float
     scale: float
     var_floor: float
+    step: float | None = None  # grid step of the values, standardised (None: no grid)
 
 
 def standardise(sample: Sample, settings: FitSettings) -> _Standardised:
@@ -174,7 +175,7 @@ def standardise(sample: Sample, settings: FitSettings) -> _Standardised:
     step = detect_grid_step(x)
     if step is not None:
         floor_sd = max(floor_sd, step / scale / np.sqrt(12.0))
-    return _Standardised(z, c, n, center, scale, floor_sd**2)
+    return _Standardised(z, c, n, center, scale, floor_sd**2, None if step is None else step / scale)
 
 
 def _robust_spread(z, c):
@@ -272,16 +273,12 @@ def _run(x, c, data, k, shared, starts, settings, cancel, var_floor=None):
 
 
 def _fit_binned_then_polish(data, k, shared, rng, settings, cancel):
-    lo, hi = data.x[0], data.x[-1]
-    edges = np.linspace(lo, hi, settings.bins + 1)
-    counts = np.histogram(data.x, bins=edges, weights=data.c)[0]
-    centres = 0.5 * (edges[1:] + edges[:-1])
-    keep = counts > 0
-    xb, cb = centres[keep], counts[keep]
-    width = edges[1] - edges[0]
-    floor_b = max(data.var_floor, width * width)
-    starts = _screened_starts(xb, cb, k, shared, rng, floor_b, settings, cancel)
-    binned = _run(xb, cb, data, k, shared, starts, settings, cancel, var_floor=floor_b)
+    # The histogram stage fits the bins by the likelihood of intervals (.grouped).
+    from .grouped import fit_bins, histogram_bins
+
+    lower, upper, cb = histogram_bins(data.x, data.c, settings.bins, data.step)
+    floor_b = data.var_floor
+    binned = fit_bins(lower, upper, cb, k, shared, rng, floor_b, settings, cancel)
     degenerate = degenerate_fits(binned, floor_b, settings)
     best = _best_index(binned.loglik, degenerate)
     agreeing = _count_agreeing(binned.loglik, best, data.n, settings.agree_tol)

@@ -353,10 +353,11 @@ def fit_bins(lower, upper, counts, k: int, shared: bool, rng: np.random.Generato
     Returns
     -------
     BatchResult
-        One row per restart kept after screening (parameters in the bins' units).
+        One row per restart kept after screening (parameters in the bins' units),
+        run to the loose tolerance of ``settings.em``: the raw values polish it.
     """
     data = _IntervalData(0.5 * (lower + upper), counts, lower, upper, var_floor)
-    return _restarts(data, k, shared, rng, settings, cancel)
+    return _restarts(data, k, shared, rng, settings, cancel, em=settings.em)
 
 
 def histogram_bins(x, c, bins: int, step: float | None = None):
@@ -395,11 +396,17 @@ def histogram_bins(x, c, bins: int, step: float | None = None):
     return edges[:-1][keep], edges[1:][keep], counts[keep]
 
 
-def _restarts(data, k, shared, rng, settings, cancel):
+def _restarts(data, k, shared, rng, settings, cancel, em=None):
+    """Screened starts, then EM on all of them side by side.
+
+    ``em`` defaults to the final tolerance ``settings.tol`` with
+    :data:`INTERVAL_MAX_ITER`; the histogram stage passes ``settings.em``
+    (its loose tolerance), since the raw values polish its result.
+    """
     w0, m0, v0 = _screened_starts(data, k, shared, rng, settings, cancel)
+    em = EMSettings(tol=settings.tol, max_iter=INTERVAL_MAX_ITER) if em is None else em
     return run_batch(data.x, data.c, w0, m0, v0, n=data.n, var_floor=data.var_floor,
-                     shared=shared, cancel=cancel, e_step_fn=data.e_step,
-                     settings=EMSettings(tol=settings.tol, max_iter=INTERVAL_MAX_ITER))
+                     shared=shared, cancel=cancel, e_step_fn=data.e_step, settings=em)
 
 
 def _screened_starts(data, k, shared, rng, settings, cancel):

@@ -112,27 +112,32 @@ def resolve_treatment(values, counts=None, *, treatment="auto", resolution=None,
     """
     check_treatment(treatment)
     step = _check_resolution(resolution)
+    sample = prepare_sample(values, counts)  # validated and sorted once
     if treatment == "exact":
-        return prepare_sample(values, counts), Treatment(
+        return _exact_sample(sample), Treatment(
             "exact", "exact", None, 0, "each value is taken at face value.")
-    x = np.asarray(values, dtype=np.float64)
-    if bounds is None and step is None and x.ndim == 1 and np.isfinite(x).all():
-        step = grid_step(x)
+    if bounds is None and step is None:
+        step = grid_step(sample.values)
     censored = 0 if bounds is None else _count_censored(bounds, counts)
     if bounds is None and step is None:
         if treatment == "intervals":
             raise InputError("No recording grid was found in the values, so their intervals are "
                              "unknown; give the resolution (e.g. 0.1) or use the exact treatment.")
-        return prepare_sample(values, counts), Treatment(
+        return _exact_sample(sample), Treatment(
             "auto", "exact", None, 0, "no recording grid was found, so the values are taken as exact.")
     if treatment == "auto":
-        use, reason = _auto_choice(values, counts, step, bounds, censored)
+        use, reason = _auto_choice(sample, counts is not None, step, bounds, censored)
         if not use:
-            return prepare_sample(values, counts), Treatment("auto", "exact", None, 0, reason)
+            return _exact_sample(sample), Treatment("auto", "exact", None, 0, reason)
     else:
         reason = "each value is known only to lie within its interval."
-    return _interval_sample(values, counts, step, bounds), Treatment(
-        treatment, "intervals", None if bounds is not None else step, censored, reason)
+    if bounds is not None:
+        grouped = prepare_intervals(values, counts, bounds[0], bounds[1])
+    else:
+        v, n = _tied(sample)
+        grouped = prepare_intervals(v, n, v - 0.5 * step, v + 0.5 * step)
+    return grouped, Treatment(treatment, "intervals", None if bounds is not None else step,
+                              censored, reason)
 
 
 def _check_resolution(resolution):
@@ -156,16 +161,15 @@ def _count_censored(bounds, counts):
     return int(np.round(np.asarray(counts, dtype=np.float64)[open_end].sum()))
 
 
-def _auto_choice(values, counts, step, bounds, censored):
+def _auto_choice(sample, tally, step, bounds, censored):
     if censored:
         return True, (f"{censored} readings lie beyond a limit (censored), which only the "
                       "likelihood of intervals can use.")
-    sample = prepare_sample(values, counts)
     width = step
     if bounds is not None:
         lower, upper = (np.asarray(b, dtype=np.float64) for b in bounds)
         width = float(np.median(upper - lower))
-    if counts is not None:
+    if tally:
         return True, ("a value/count table: each count is a class of width "
                       f"{width:.4g}, so each value is an interval.")
     spread = _robust_sd(sample.values, sample.counts)
@@ -183,11 +187,18 @@ def _robust_sd(x, c):
     return sd * _robust_spread((x - center) / sd, c) if sd > 0 else 0.0
 
 
-def _interval_sample(values, counts, step, bounds) -> Sample:
-    if bounds is not None:
-        return prepare_intervals(values, counts, bounds[0], bounds[1])
-    sample = prepare_sample(values, counts)  # sorted: ties gathered without another sort
+def _tied(sample: Sample):
+    """Distinct values and their total counts (the sample is sorted, so ties are neighbours)."""
     x, c = sample.values, sample.counts
-    first = np.flatnonzero(np.r_[True, np.diff(x) > 0])
-    v, n = x[first], np.add.reduceat(c, first)
-    return prepare_intervals(v, n, v - 0.5 * step, v + 0.5 * step)
+    first = np.flatnonzero(np.r_[True, x[1:] != x[:-1]])
+    return x[first], np.add.reduceat(c, first)
+
+
+def _exact_sample(sample: Sample) -> Sample:
+    """Exact values with ties gathered into counts: the same likelihood, a cost set by the distinct values."""
+    if sample.n_distinct == sample.values.size:
+        return sample
+    v, n = _tied(sample)
+    v.setflags(write=False)
+    n.setflags(write=False)
+    return Sample(values=v, counts=n, n=sample.n, n_distinct=sample.n_distinct)

@@ -139,7 +139,7 @@ def e_step(x, c, logw, mu, var) -> Stats:
         np.exp(lj, out=lj)
         total = lj.sum(axis=1)
         row_loglik = top + np.log(total)
-        loglik += row_loglik @ cs if cs.ndim == 1 else np.einsum("rn,rn->r", row_loglik, cs)
+        loglik += np.einsum("rn,n->r" if cs.ndim == 1 else "rn,rn->r", row_loglik, cs)  # no BLAS threads: same bits on any thread count
         np.multiply(lj, (cs / total)[:, None, :], out=lj)
         nk += lj.sum(axis=2)
         sd += np.einsum("rkn,rkn->rk", lj, d)

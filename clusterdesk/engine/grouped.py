@@ -178,7 +178,7 @@ def interval_e_step(lower, upper, c, logw, mu, var) -> Stats:
         total = resp.sum(axis=1)
         with np.errstate(divide="ignore"):
             row_loglik = top + np.log(total)
-        loglik += row_loglik @ cs if cs.ndim == 1 else np.einsum("rn,rn->r", row_loglik, cs)
+        loglik += np.einsum("rn,n->r" if cs.ndim == 1 else "rn,rn->r", row_loglik, cs)  # no BLAS threads: same bits on any thread count
         with np.errstate(divide="ignore", invalid="ignore"):
             resp *= np.where(total > 0, cs / total, 0.0)[:, None, :]
         pa, apa = _phi_ratio(alpha, logp)

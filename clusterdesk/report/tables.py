@@ -28,7 +28,7 @@ _BACK = {"ln": np.exp, "log10": lambda v: np.power(10.0, v)}
 
 @dataclass(frozen=True)
 class Table:
-    """A header and its rows."""
+    """A header and its rows (a list; the assignment table streams them, one pass only)."""
 
     header: tuple
     rows: list
@@ -128,13 +128,18 @@ def assignment_table(analysis) -> Table:
     k = a["posterior"].shape[1]
     header = ("line", "value", "status", "component", "max_posterior") + tuple(
         f"posterior_{j + 1}" for j in range(k))
-    rows = []
-    for i in range(a["line"].size):
-        kept = bool(a["kept"][i])
-        rows.append([int(a["line"][i]), float(a["value"][i]), a["reason"][i],
-                     int(a["component"][i]) if kept else None, float(a["max_posterior"][i]),
-                     *a["posterior"][i].tolist()])
-    return Table(header, rows)
+    return Table(header, _assignment_rows(a))
+
+
+def _assignment_rows(a, block: int = 1 << 16):
+    """The assignment rows one at a time (ten million rows never sit in memory as lists)."""
+    for start in range(0, a["line"].size, block):
+        part = slice(start, start + block)
+        for line, value, reason, component, kept, top, posterior in zip(
+                a["line"][part].tolist(), a["value"][part].tolist(), a["reason"][part],
+                a["component"][part].tolist(), a["kept"][part].tolist(),
+                a["max_posterior"][part].tolist(), a["posterior"][part].tolist()):
+            yield [line, value, reason, component if kept else None, top, *posterior]
 
 
 def summary_dict(analysis) -> dict:

@@ -330,7 +330,27 @@ class Analysis:
 
         values, counts = self.fit_input()
         model = self.chosen if model is None else model
-        return classification_summary(model.mixture, values, counts)
+        return classification_summary(model.mixture, values, counts, posterior=self.posterior(model))
+
+    def posterior(self, model: FittedModel | None = None) -> np.ndarray:
+        """Posterior probabilities of the kept values, shape (n_kept, k), in file order.
+
+        For a model fitted to intervals they are the probabilities given that
+        each value lies in its interval (:func:`clusterdesk.engine.grouped.interval_posterior`),
+        otherwise given the exact value.
+        """
+        values, _ = self.fit_input()
+        model = self.chosen if model is None else model
+        given = self.interval_input()
+        if model.likelihood != "intervals" or (given["resolution"] is None and given["bounds"] is None):
+            return model.mixture.posterior(values)
+        from .engine.grouped import interval_posterior
+
+        if given["bounds"] is not None:
+            lower, upper = given["bounds"]
+        else:
+            lower, upper = values - given["resolution"] / 2, values + given["resolution"] / 2
+        return interval_posterior(lower, upper, model.mixture)
 
     # ------------------------------------------------------------ assignments
     def assignments(self):
@@ -347,7 +367,7 @@ class Analysis:
         m = self._need_measurements()
         model = self.chosen
         rows = m.rows
-        post_kept = model.mixture.posterior(m.fit_values)
+        post_kept = self.posterior(model)
         k = model.k
         posterior = np.full((len(rows), k), np.nan)
         kept = rows.kept

@@ -98,3 +98,27 @@ def test_below_detection_rows_enter_the_serosurvey_fit_as_censored_intervals():
     assert abs(best.mixture.means[0]) < abs(dropped.scan.best.mixture.means[0])
     boot = analysis.run_intervals(replicates=20)
     assert boot.path == "intervals" and boot.mean_interval.shape == (2, 2)
+
+
+def test_labels_of_an_interval_fit_use_interval_posteriors():
+    # Reference: the posterior given that each length lies in [x - 1/2, x + 1/2),
+    # written here with scipy.stats.norm.cdf differences (Bayes' rule).
+    from scipy import stats
+
+    analysis = Analysis.from_file(SAMPLES / "lake_net_lengths.csv", DataChoice(column="length_mm"),
+                                  ScanSettings(kmax=3, restarts=3, widths="separate"))
+    analysis.run_scan()
+    model = analysis.chosen
+    assert model.likelihood == "intervals"
+    x = analysis.measurements.fit_values
+    mix = model.mixture
+    joint = mix.weights * (stats.norm.cdf(x[:, None] + 0.5, mix.means, mix.sds)
+                           - stats.norm.cdf(x[:, None] - 0.5, mix.means, mix.sds))
+    reference = joint / joint.sum(axis=1, keepdims=True)
+    np.testing.assert_allclose(analysis.posterior(), reference, rtol=1e-9, atol=1e-12)
+    assert np.abs(reference - mix.posterior(x)).max() > 1e-6  # the density posterior differs
+    rows = analysis.assignments()
+    np.testing.assert_allclose(rows["posterior"][rows["kept"]], reference[analysis.measurements.rows.position[rows["kept"]]],
+                               rtol=1e-9, atol=1e-12)
+    summary = analysis.classification()
+    np.testing.assert_array_equal(summary.assigned, np.argmax(reference, axis=1))

@@ -26,6 +26,7 @@ from .engine.scan import ScanResult
 from .atomic import write_text_atomic
 from .errors import FileFormatError, InputError
 from .io import Measurements, read_measurements
+from .io import reasons as R
 from .saved_layout import check_analysis_file, data_problem, settings_problem, whole_number
 
 __all__ = ["DataChoice", "ScanSettings", "Analysis", "ANALYSIS_SUFFIX", "FORMAT_VERSION", "SourceChangedError"]
@@ -85,6 +86,13 @@ class ScanSettings:
     widths : {"separate", "shared", "both"}, default "both"
     restarts : int, default 10
     seed : int, default 0
+    treatment : {"auto", "exact", "intervals"}, default "auto"
+        Fit the likelihood of exact values or of intervals (each value known
+        only to lie within the resolution); ``"auto"`` decides from the
+        resolution (see :mod:`clusterdesk.engine.treatment`).
+    resolution : float or None, default None
+        Recording step (or class width) on the original scale; None: the one
+        detected when the values were read.
     """
 
     kmin: int = 1
@@ -92,6 +100,8 @@ class ScanSettings:
     widths: str = "both"
     restarts: int = 10
     seed: int = 0
+    treatment: str = "auto"
+    resolution: float | None = None
 
 
 @dataclass
@@ -158,12 +168,84 @@ class Analysis:
         m = self._need_measurements()
         return m.fit_values, m.counts
 
+    def interval_input(self, settings: ScanSettings | None = None) -> dict:
+        """The resolution or interval ends handed to the engine, on the analysis scale.
+
+        Each kept value ``x`` lies in ``[x - h/2, x + h/2)`` on the original
+        scale (``h`` the settings' resolution, else the detected one); on a log
+        scale the ends are transformed, an end at or below zero becoming
+        ``-inf``.
+
+        Returns
+        -------
+        dict
+            ``resolution`` (float or None) and ``bounds`` ((lower, upper) or None),
+            as :func:`clusterdesk.scan` takes them.
+        """
+        m = self._need_measurements()
+        s = self.settings if settings is None else settings
+        step = s.resolution if s.resolution is not None else m.resolution
+        if step is None or s.treatment == "exact":
+            return {"resolution": None, "bounds": None}
+        if m.scale == "linear":
+            return {"resolution": step, "bounds": None}
+        log = np.log if m.scale == "ln" else np.log10
+        with np.errstate(divide="ignore", invalid="ignore"):
+            lower = np.where(m.values - step / 2 > 0, log(np.maximum(m.values - step / 2, 0.0)), -np.inf)
+        return {"resolution": None, "bounds": (lower, log(m.values + step / 2))}
+
+    def likelihood_input(self, settings: ScanSettings | None = None) -> dict:
+        """Everything the likelihood is computed from: ``values``, ``counts``, ``resolution``, ``bounds``.
+
+        Kept values with their resolution (:meth:`interval_input`); and when
+        they are treated as intervals (any treatment but ``"exact"``, with a
+        resolution known), the rows excluded as below a detection limit (or
+        above a reporting limit) enter as censored intervals ``(-inf, limit)``
+        (``(limit, inf)``) instead of being dropped.
+        """
+        values, counts = self.fit_input()
+        given = self.interval_input(settings)
+        limits, ends, limit_counts = self._censored_rows()
+        if limits.size == 0 or (given["resolution"] is None and given["bounds"] is None):
+            return {"values": values, "counts": counts, **given}
+        if given["bounds"] is None:
+            step = given["resolution"]
+            lower, upper = values - step / 2, values + step / 2
+        else:
+            lower, upper = given["bounds"]
+        below = ends < 0
+        kept_counts = np.ones(values.size) if counts is None else counts
+        return {"values": np.concatenate([values, limits]),
+                "counts": np.concatenate([kept_counts, limit_counts]),
+                "resolution": None,
+                "bounds": (np.concatenate([lower, np.where(below, -np.inf, limits)]),
+                           np.concatenate([upper, np.where(below, limits, np.inf)]))}
+
+    def _censored_rows(self):
+        """Limits (analysis scale), side (-1 below, +1 above) and counts of detection-limit rows."""
+        m = self._need_measurements()
+        rows = m.rows
+        side = np.where(rows.reason == R.BELOW_LIMIT, -1, np.where(rows.reason == R.ABOVE_LIMIT, 1, 0))
+        limits = rows.value
+        usable = (side != 0) & np.isfinite(limits)
+        if m.scale != "linear":
+            usable &= limits > 0
+        if rows.count is not None:
+            usable &= np.isfinite(rows.count) & (rows.count > 0)
+        limits = limits[usable]
+        if m.scale == "ln":
+            limits = np.log(limits)
+        elif m.scale == "log10":
+            limits = np.log10(limits)
+        counts = np.ones(limits.size) if rows.count is None else rows.count[usable]
+        return limits, side[usable], counts
+
     def compute_scan(self, settings: ScanSettings | None = None, progress=None, cancel=None) -> ScanResult:
         """Run the scan and return it, without changing the analysis."""
         s = self.settings if settings is None else settings
-        values, counts = self.fit_input()
-        return run_scan(values, counts=counts, kmin=s.kmin, kmax=s.kmax, widths=s.widths, restarts=s.restarts, seed=s.seed,
-                        progress=progress, cancel=cancel)
+        return run_scan(kmin=s.kmin, kmax=s.kmax, widths=s.widths, restarts=s.restarts, seed=s.seed,
+                        progress=progress, cancel=cancel, treatment=s.treatment,
+                        **self.likelihood_input(s))
 
     def apply_scan(self, result: ScanResult, settings: ScanSettings | None = None) -> None:
         """Make a computed scan the analysis's scan; the choice returns to the best model."""
@@ -210,10 +292,12 @@ class Analysis:
         -------
         BootstrapResult
         """
-        values, counts = self.fit_input()
         seed = self.settings.seed if seed is None else seed
-        return run_bootstrap(values, self.chosen, counts=counts, replicates=replicates, method=method,
-                             level=level, seed=seed, progress=progress, cancel=cancel)
+        given = self.likelihood_input()
+        if self.chosen.likelihood == "exact":
+            given = {"values": given["values"], "counts": given["counts"]}
+        return run_bootstrap(model=self.chosen, replicates=replicates, method=method,
+                             level=level, seed=seed, progress=progress, cancel=cancel, **given)
 
     def apply_intervals(self, result) -> None:
         """Keep computed intervals for the model they belong to (the chosen one when computed)."""
@@ -263,7 +347,27 @@ class Analysis:
 
         values, counts = self.fit_input()
         model = self.chosen if model is None else model
-        return classification_summary(model.mixture, values, counts)
+        return classification_summary(model.mixture, values, counts, posterior=self.posterior(model))
+
+    def posterior(self, model: FittedModel | None = None) -> np.ndarray:
+        """Posterior probabilities of the kept values, shape (n_kept, k), in file order.
+
+        For a model fitted to intervals they are the probabilities given that
+        each value lies in its interval (:func:`clusterdesk.engine.grouped.interval_posterior`),
+        otherwise given the exact value.
+        """
+        values, _ = self.fit_input()
+        model = self.chosen if model is None else model
+        given = self.interval_input()
+        if model.likelihood != "intervals" or (given["resolution"] is None and given["bounds"] is None):
+            return model.mixture.posterior(values)
+        from .engine.grouped import interval_posterior
+
+        if given["bounds"] is not None:
+            lower, upper = given["bounds"]
+        else:
+            lower, upper = values - given["resolution"] / 2, values + given["resolution"] / 2
+        return interval_posterior(lower, upper, model.mixture)
 
     # ------------------------------------------------------------ assignments
     def assignments(self):
@@ -280,7 +384,7 @@ class Analysis:
         m = self._need_measurements()
         model = self.chosen
         rows = m.rows
-        post_kept = model.mixture.posterior(m.fit_values)
+        post_kept = self.posterior(model)
         k = model.k
         posterior = np.full((len(rows), k), np.nan)
         kept = rows.kept

@@ -10,6 +10,7 @@ from .engine.bootstrap import BootstrapResult, bootstrap_model
 from .engine.fitting import FitSettings, FittedModel, fit_model
 from .engine.lrtest import likelihood_ratio_test  # the engine function is the public door
 from .engine.scan import ScanResult, model_rng, scan_models
+from .engine.treatment import resolve_treatment
 from .engine.validation import check_component_range, check_seed, check_widths, prepare_sample
 from .errors import InputError
 
@@ -17,7 +18,7 @@ __all__ = ["scan", "fit", "bootstrap", "likelihood_ratio_test"]
 
 
 def scan(values, *, counts=None, kmin=1, kmax=6, widths="separate", restarts=10, seed=0,
-         progress=None, cancel=None) -> ScanResult:
+         progress=None, cancel=None, treatment="auto", resolution=None, bounds=None) -> ScanResult:
     """Fit mixtures of kmin..kmax normal components and rank them by BIC.
 
     Parameters
@@ -39,11 +40,24 @@ def scan(values, *, counts=None, kmin=1, kmax=6, widths="separate", restarts=10,
     cancel : object with ``is_set()``, optional
         E.g. a :class:`threading.Event`; when set, the scan raises
         :class:`~clusterdesk.errors.Cancelled` and returns nothing.
+    treatment : {"auto", "exact", "intervals"}, default "auto"
+        Fit the likelihood of exact values, or of intervals: each value known
+        only to lie within its recording resolution (``[x - h/2, x + h/2)``),
+        each count a class of that width. ``"auto"`` uses intervals for
+        value/count tables on a grid, censored readings and values on a grid
+        that is coarse against their spread; ``result.treatment`` says which
+        was used and why.
+    resolution : float, optional
+        Recording step (or class width) of the values; default: detected.
+    bounds : tuple (lower, upper) of array_like, each shape (n,), optional
+        Each value's interval end by end (``-inf`` for a reading below a
+        detection limit); used with ``"auto"`` and ``"intervals"``.
 
     Returns
     -------
     ScanResult
-        ``.ranking`` (best first), ``.best``, ``.model(k, widths)``, ``.evidence``.
+        ``.ranking`` (best first), ``.best``, ``.model(k, widths)``, ``.evidence``,
+        ``.treatment``.
 
     Raises
     ------
@@ -51,10 +65,12 @@ def scan(values, *, counts=None, kmin=1, kmax=6, widths="separate", restarts=10,
         Values or settings that cannot be analysed, with what to try.
     """
     return scan_models(values, counts=counts, kmin=kmin, kmax=kmax, widths=widths,
-                       restarts=restarts, seed=seed, progress=progress, cancel=cancel)
+                       restarts=restarts, seed=seed, progress=progress, cancel=cancel,
+                       treatment=treatment, resolution=resolution, bounds=bounds)
 
 
-def fit(values, k, *, counts=None, widths="separate", restarts=10, seed=0, cancel=None) -> FittedModel:
+def fit(values, k, *, counts=None, widths="separate", restarts=10, seed=0, cancel=None,
+        treatment="auto", resolution=None, bounds=None) -> FittedModel:
     """Fit one mixture of ``k`` normal components.
 
     Parameters
@@ -67,14 +83,18 @@ def fit(values, k, *, counts=None, widths="separate", restarts=10, seed=0, cance
     restarts : int, default 10
     seed : int, default 0
     cancel : object with ``is_set()``, optional
+    treatment, resolution, bounds
+        Exact values or intervals, as for :func:`scan`.
 
     Returns
     -------
     FittedModel
-        ``.mixture`` (weights, means, sds), ``.loglik``, ``.bic``, ``.converged``, ...
+        ``.mixture`` (weights, means, sds), ``.loglik``, ``.bic``, ``.converged``,
+        ``.likelihood`` ("exact" or "intervals"), ...
         The same model as ``scan(..., seed=seed).model(k, widths)``.
     """
-    sample = prepare_sample(values, counts)
+    sample, _ = resolve_treatment(values, counts, treatment=treatment, resolution=resolution,
+                                  bounds=bounds)
     variants = check_widths(widths)
     if len(variants) != 1:
         raise InputError("fit() takes one width variant: 'separate' or 'shared'; use scan() for both.")
@@ -87,7 +107,7 @@ def fit(values, k, *, counts=None, widths="separate", restarts=10, seed=0, cance
 
 
 def bootstrap(values, model, *, counts=None, replicates=200, method="resample", level=0.95, seed=0,
-              progress=None, cancel=None, workers=None) -> BootstrapResult:
+              progress=None, cancel=None, workers=None, resolution=None, bounds=None) -> BootstrapResult:
     """Bootstrap intervals for the weights, means, standard deviations and cut points of a fit.
 
     Parameters
@@ -113,6 +133,9 @@ def bootstrap(values, model, *, counts=None, replicates=200, method="resample", 
         When set, raises :class:`~clusterdesk.errors.Cancelled`.
     workers : int, optional
         Worker threads; default the cores available, at most 2.
+    resolution, bounds : optional
+        For a model fitted to intervals (``model.likelihood == "intervals"``):
+        the same resolution or interval ends the scan was given.
 
     Returns
     -------
@@ -120,7 +143,9 @@ def bootstrap(values, model, *, counts=None, replicates=200, method="resample", 
         Replicate arrays, ``*_interval`` (k, 2), ``*_se`` (k,), the counts of
         failed and collapsed replicates, and notes (which path was used).
     """
-    sample = prepare_sample(values, counts)
+    treatment = "intervals" if getattr(model, "likelihood", "exact") == "intervals" else "exact"
+    sample, _ = resolve_treatment(values, counts, treatment=treatment, resolution=resolution,
+                                  bounds=bounds)
     return bootstrap_model(sample, model, replicates=replicates, method=method, level=level,
                            seed=seed, workers=workers, progress=progress, cancel=cancel)
 

@@ -58,6 +58,8 @@ def format_ranking(result) -> str:
     """The ranking as a plain-text table."""
     lines = [f"{'rank':>4} {'k':>2} {'widths':<9} {'log-lik':>12} {'params':>6} {'BIC':>11} "
              f"{'dBIC':>8} {'weight':>7} {'ICL':>11} {'conv':>4} {'agree':>6}"]
+    if getattr(result, "treatment", None) is not None:
+        lines.insert(0, f"Values treated as: {result.treatment.describe()}")
     for r in result.ranking:
         lines.append(f"{r.rank:>4} {r.k:>2} {r.widths:<9} {r.loglik:>12.3f} {r.n_params:>6} "
                      f"{r.bic:>11.3f} {r.delta_bic:>8.2f} {r.bic_weight:>7.3f} {r.icl:>11.3f} "
@@ -88,6 +90,8 @@ examples:
   clusterdesk fit assay.csv --scale log10 --low 0.01 --out results/
   clusterdesk fit survey.csv --intervals 200 --report survey.html --out results/
   clusterdesk fit gauge.xlsx --sheet inspection --column diameter_mm --json
+  clusterdesk fit survey.csv --values-as exact      values at face value, not as intervals
+  clusterdesk fit survey.csv --values-as intervals --resolution 0.5
 
 exit codes: 0 success, 2 usage error, 3 unusable input (the message says why)
 """
@@ -134,6 +138,13 @@ def build_parser() -> argparse.ArgumentParser:
     fit.add_argument("--seed", type=int, default=0, help="random seed (default 0)")
     fit.add_argument("--scale", choices=("linear", "ln", "log10"), default="linear",
                      help="fit on the values or on their logarithm (default linear)")
+    fit.add_argument("--values-as", choices=("auto", "exact", "intervals"), default="auto",
+                     help="fit the values as exact, or as intervals of their resolution "
+                          "(each value known only to within its recording step); auto decides "
+                          "from the resolution (default auto)")
+    fit.add_argument("--resolution", type=float, metavar="STEP",
+                     help="recording step or class width on the original scale "
+                          "(default: detected from the values)")
     fit.add_argument("--low", type=float, help="exclude values below this (original scale)")
     fit.add_argument("--high", type=float, help="exclude values above this (original scale)")
     fit.add_argument("--choose", metavar="K[:WIDTHS]",
@@ -182,7 +193,8 @@ def run_fit(args, out) -> int:
     data = DataChoice(column=_column_arg(args.column), counts=_column_arg(args.counts),
                       sheet=_column_arg(args.sheet), low=args.low, high=args.high, scale=args.scale)
     settings = ScanSettings(kmin=args.kmin, kmax=args.kmax, widths=args.widths,
-                            restarts=args.restarts, seed=args.seed)
+                            restarts=args.restarts, seed=args.seed, treatment=args.values_as,
+                            resolution=args.resolution)
     analysis = Analysis.from_file(args.file, data, settings)
     analysis.run_scan()
     if args.choose:

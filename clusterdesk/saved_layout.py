@@ -6,6 +6,8 @@ or edited file gives one sentence instead of a library error.
 
 from __future__ import annotations
 
+import math
+
 from pathlib import Path
 
 from .errors import FileFormatError
@@ -59,6 +61,12 @@ def settings_problem(settings: dict, default_kmax: int) -> str:
         return f"kmin {settings.get('kmin')} is larger than kmax {settings.get('kmax', default_kmax)}"
     if settings.get("widths", "both") not in ("separate", "shared", "both"):
         return f"widths is {settings['widths']!r}"
+    if settings.get("treatment", "auto") not in ("auto", "exact", "intervals"):
+        return f"treatment is {settings['treatment']!r}"
+    step = settings.get("resolution")
+    if step is not None and (isinstance(step, bool) or not isinstance(step, (int, float))
+                             or not math.isfinite(step) or step <= 0):
+        return f"resolution is {step!r}, not a positive number"
     return ""
 
 

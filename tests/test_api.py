@@ -109,14 +109,19 @@ def test_both_widths_gives_every_variant_and_model_lookup(both_scan):
         both_scan.model(5, "separate")  # never scanned
 
 
-def test_counts_equal_repeated_values():
+@pytest.mark.parametrize("treatment", ["exact", "intervals"])
+def test_counts_equal_repeated_values(treatment):
     # A value/count table must fit exactly as the same values written out
     # (np.repeat is the reference); definition of a frequency-weighted likelihood.
+    # Under "auto" a table is a tally of intervals, so both treatments are forced.
     rounded = np.round(three_groups(seed=8, n=900), 1)
     distinct, counts = np.unique(rounded, return_counts=True)
     assert counts.max() > 1  # the table really groups ties
-    from_table = clusterdesk.scan(distinct, counts=counts, kmin=1, kmax=3, widths="both", seed=4)
-    from_rows = clusterdesk.scan(np.repeat(distinct, counts), kmin=1, kmax=3, widths="both", seed=4)
+    from_table = clusterdesk.scan(distinct, counts=counts, kmin=1, kmax=3, widths="both", seed=4,
+                                  treatment=treatment)
+    from_rows = clusterdesk.scan(np.repeat(distinct, counts), kmin=1, kmax=3, widths="both", seed=4,
+                                 treatment=treatment)
+    assert from_table.treatment.used == from_rows.treatment.used == treatment
     for row in from_rows.ranking:
         a = from_table.model(row.k, row.widths)
         b = from_rows.model(row.k, row.widths)

@@ -23,6 +23,7 @@ import numpy as np
 
 from ..errors import InputError
 from .fitting import FitSettings, FittedModel
+from .grouped import interval_loglik
 from .labels import match_to_reference, posterior_agreement
 from .mixture import Mixture, cut_point_between
 from .parallel import check_seed, check_workers, index_batches, run_batches
@@ -57,7 +58,7 @@ class BootstrapResult:
     Attributes
     ----------
     method : {"resample", "parametric"}
-    path : {"values", "fine histogram", "grid", "simulated values"}
+    path : {"values", "fine histogram", "grid", "simulated values", "intervals"}
         How replicate data were drawn (see :mod:`clusterdesk.engine.replicates`).
     support_size : int
         Distinct values, bins or grid cells the counts were drawn over (the
@@ -245,7 +246,13 @@ def _check_arguments(model, sample, replicates, method, level):
     if model.n != sample.n:
         raise InputError(f"The model was fitted to {model.n:g} values but {sample.n:g} were given; "
                          "pass the same values (and counts) the model was fitted to.")
-    loglik = model.mixture.loglik(sample.values, sample.counts)
+    if model.likelihood != ("intervals" if sample.is_intervals else "exact"):
+        raise InputError(f"The model was fitted with the {model.likelihood} likelihood but the data "
+                         "were given in the other treatment; pass them as they were fitted.")
+    if sample.is_intervals:
+        loglik = interval_loglik(sample.lower, sample.upper, sample.counts, model.mixture)
+    else:
+        loglik = model.mixture.loglik(sample.values, sample.counts)
     if abs(loglik - model.loglik) > _LOGLIK_MATCH * (abs(model.loglik) + sample.n):
         raise InputError("The model does not belong to these values (its log-likelihood on them "
                          "differs from the fitted one); pass the values it was fitted to.")
@@ -337,6 +344,8 @@ _PATH_WORDS = {
                       "(the sample has many distinct values)",
     "grid": "counts over {size} cells of the values' recording grid",
     "simulated values": "{size} values simulated from the fit for each replicate",
+    "intervals": "multinomial counts over the {size} distinct intervals, each replicate refitted "
+                 "by the likelihood of intervals",
 }
 
 

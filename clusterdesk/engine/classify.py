@@ -168,7 +168,7 @@ def _rows(values, counts):
 
 
 def classification_summary(mixture: Mixture, values, counts=None, *,
-                           threshold: float = CONFIDENT_POSTERIOR) -> ClassificationSummary:
+                           threshold: float = CONFIDENT_POSTERIOR, posterior=None) -> ClassificationSummary:
     """Classify rows by their posterior probabilities and summarise how clear-cut it is.
 
     Parameters
@@ -180,6 +180,10 @@ def classification_summary(mixture: Mixture, values, counts=None, *,
         Whole-number counts of each value; default 1 each.
     threshold : float, default 0.9
         Posterior at or above which an assignment counts as confident.
+    posterior : ndarray, shape (n, k), optional
+        The rows' posterior probabilities when they are not those of exact
+        values (e.g. of intervals, :func:`.grouped.interval_posterior`);
+        default ``mixture.posterior(values)``.
 
     Returns
     -------
@@ -190,7 +194,7 @@ def classification_summary(mixture: Mixture, values, counts=None, *,
     if not 0.0 < float(threshold) <= 1.0:
         raise InputError(f"threshold must be a posterior probability in (0, 1]; got {threshold!r}.")
     x, c = _rows(values, counts)
-    posterior = mixture.posterior(x)
+    posterior = mixture.posterior(x) if posterior is None else np.array(posterior, dtype=np.float64)
     assigned = np.argmax(posterior, axis=1)
     confident = posterior[np.arange(x.size), assigned] >= threshold
     rates = misclassification_rates(mixture)

@@ -139,7 +139,7 @@ def e_step(x, c, logw, mu, var) -> Stats:
         np.exp(lj, out=lj)
         total = lj.sum(axis=1)
         row_loglik = top + np.log(total)
-        loglik += row_loglik @ cs if cs.ndim == 1 else np.einsum("rn,rn->r", row_loglik, cs)
+        loglik += np.einsum("rn,n->r" if cs.ndim == 1 else "rn,rn->r", row_loglik, cs)  # no BLAS threads: same bits on any thread count
         np.multiply(lj, (cs / total)[:, None, :], out=lj)
         nk += lj.sum(axis=2)
         sd += np.einsum("rkn,rkn->rk", lj, d)
@@ -194,15 +194,16 @@ def _logsumexp_rows(a):
 class _EMMap:
     """The EM map theta -> M(E(theta)) on the data of the given rows."""
 
-    def __init__(self, x, c, k, n, var_floor, shared):
+    def __init__(self, x, c, k, n, var_floor, shared, e_step_fn=None):
         self.x, self.c, self.k, self.n = x, c, k, n
         self.var_floor, self.shared = var_floor, shared
+        self.e_step = e_step if e_step_fn is None else e_step_fn
 
     def __call__(self, theta, rows):
         x = self.x[rows] if self.x.ndim == 2 else self.x
         c = self.c[rows] if self.c.ndim == 2 else self.c
         logw, mu, var = _unpack(theta, self.k, self.var_floor)
-        stats = e_step(x, c, logw, mu, var)
+        stats = self.e_step(x, c, logw, mu, var)
         new = m_step(stats, mu, var, self.n[rows][:, None], self.var_floor, self.shared)
         return stats.loglik, _pack(*new), stats.nk
 
@@ -238,7 +239,8 @@ def _has_converged(gain, previous_gain, tol_abs):
 
 
 def run_batch(x, c, weights, means, variances, *, n=None, var_floor=0.0, shared=False,
-              settings: EMSettings = EMSettings(), cancel=None, record_trace=False) -> BatchResult:
+              settings: EMSettings = EMSettings(), cancel=None, record_trace=False,
+              e_step_fn=None) -> BatchResult:
     """Run EM from several starts side by side until each converges.
 
     Parameters
@@ -262,6 +264,9 @@ def run_batch(x, c, weights, means, variances, *, n=None, var_floor=0.0, shared=
         Checked every cycle; raises :class:`~clusterdesk.errors.Cancelled`.
     record_trace : bool, default False
         Keep the log-likelihood at the start of every cycle.
+    e_step_fn : callable(x, c, logw, mu, var) -> Stats, optional
+        Another E-step with the same statistics (e.g. the interval E-step of
+        :mod:`.grouped`, whose M-step is this one); default :func:`e_step`.
 
     Returns
     -------
@@ -269,7 +274,7 @@ def run_batch(x, c, weights, means, variances, *, n=None, var_floor=0.0, shared=
     """
     r, k = means.shape
     n = np.broadcast_to(np.asarray(c.sum(axis=-1) if n is None else n, dtype=np.float64), (r,))
-    em_map = _EMMap(x, c, k, n, var_floor, shared)
+    em_map = _EMMap(x, c, k, n, var_floor, shared, e_step_fn)
     theta = _pack(np.log(np.maximum(weights, _TINY_WEIGHT)), means,
                   np.maximum(variances, max(var_floor, 1e-300)))
     state = _Progress(r)

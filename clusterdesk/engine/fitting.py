@@ -125,6 +125,9 @@ class FittedModel:
         Every restart ended degenerate; the numbers describe a spurious fit.
     notes : tuple of str
         Plain-words remarks on the fit (no convergence, collapse, ...).
+    likelihood : {"exact", "intervals"}, default "exact"
+        Which likelihood was maximised: of exact values (densities), or of
+        intervals (probabilities of ``[a, b)``, :mod:`.grouped`).
     """
 
     mixture: Mixture
@@ -143,6 +146,7 @@ class FittedModel:
     restarts_agreeing: int
     collapsed: bool
     notes: tuple = ()
+    likelihood: str = "exact"
 
     @property
     def min_weight(self) -> float:
@@ -158,6 +162,7 @@ class _Standardised:
     center: float
     scale: float
     var_floor: float
+    step: float | None = None  # grid step of the values, standardised (None: no grid)
 
 
 def standardise(sample: Sample, settings: FitSettings) -> _Standardised:
@@ -170,7 +175,7 @@ def standardise(sample: Sample, settings: FitSettings) -> _Standardised:
     step = detect_grid_step(x)
     if step is not None:
         floor_sd = max(floor_sd, step / scale / np.sqrt(12.0))
-    return _Standardised(z, c, n, center, scale, floor_sd**2)
+    return _Standardised(z, c, n, center, scale, floor_sd**2, None if step is None else step / scale)
 
 
 def _robust_spread(z, c):
@@ -200,6 +205,10 @@ def fit_model(sample: Sample, k: int, widths: str, rng: np.random.Generator,
     -------
     FittedModel
     """
+    if sample.is_intervals:
+        from .grouped import fit_intervals  # interval data: the likelihood of McLachlan & Jones
+
+        return fit_intervals(sample, k, widths, rng, settings, cancel)
     data = standardise(sample, settings)
     shared = widths == "shared"
     if sample.n_distinct > settings.bin_above:
@@ -264,16 +273,12 @@ def _run(x, c, data, k, shared, starts, settings, cancel, var_floor=None):
 
 
 def _fit_binned_then_polish(data, k, shared, rng, settings, cancel):
-    lo, hi = data.x[0], data.x[-1]
-    edges = np.linspace(lo, hi, settings.bins + 1)
-    counts = np.histogram(data.x, bins=edges, weights=data.c)[0]
-    centres = 0.5 * (edges[1:] + edges[:-1])
-    keep = counts > 0
-    xb, cb = centres[keep], counts[keep]
-    width = edges[1] - edges[0]
-    floor_b = max(data.var_floor, width * width)
-    starts = _screened_starts(xb, cb, k, shared, rng, floor_b, settings, cancel)
-    binned = _run(xb, cb, data, k, shared, starts, settings, cancel, var_floor=floor_b)
+    # The histogram stage fits the bins by the likelihood of intervals (.grouped).
+    from .grouped import fit_bins, histogram_bins
+
+    lower, upper, cb = histogram_bins(data.x, data.c, settings.bins, data.step)
+    floor_b = data.var_floor
+    binned = fit_bins(lower, upper, cb, k, shared, rng, floor_b, settings, cancel)
     degenerate = degenerate_fits(binned, floor_b, settings)
     best = _best_index(binned.loglik, degenerate)
     agreeing = _count_agreeing(binned.loglik, best, data.n, settings.agree_tol)
@@ -364,8 +369,6 @@ def _finish(data, sample, result, best, k, widths, agreeing, restarts, collapsed
                       sds=scale * np.sqrt(result.variances[best]))
     loglik = float(result.loglik[best]) - data.n * np.log(scale)
     entropy = criteria.posterior_entropy(mixture.posterior(sample.values), sample.counts)
-    n_params = criteria.n_parameters(k, widths)
-    bic = criteria.bic(loglik, n_params, data.n)
     notes = []
     converged = bool(result.converged[best])
     if not converged:
@@ -375,8 +378,18 @@ def _finish(data, sample, result, best, k, widths, agreeing, restarts, collapsed
     if collapsed:
         notes.append("Every restart ended with a component squeezed onto a few values "
                      "(a spurious maximum); this model is not a credible description.")
-    return FittedModel(mixture=mixture, k=k, widths=widths, loglik=loglik, n=data.n,
+    return model_with_criteria(mixture, k, widths, loglik, data.n, entropy, converged=converged,
+                               iterations=int(result.iterations[best]), restarts=restarts,
+                               agreeing=agreeing, collapsed=collapsed, notes=notes)
+
+
+def model_with_criteria(mixture, k, widths, loglik, n, entropy, *, converged, iterations, restarts,
+                        agreeing, collapsed, notes, likelihood="exact") -> FittedModel:
+    """A :class:`FittedModel` with its parameter count, BIC, AIC and ICL computed."""
+    n_params = criteria.n_parameters(k, widths)
+    bic = criteria.bic(loglik, n_params, n)
+    return FittedModel(mixture=mixture, k=k, widths=widths, loglik=loglik, n=n,
                        n_params=n_params, bic=bic, aic=criteria.aic(loglik, n_params),
                        icl=criteria.icl(bic, entropy), entropy=entropy, converged=converged,
-                       iterations=int(result.iterations[best]), restarts=restarts,
-                       restarts_agreeing=agreeing, collapsed=collapsed, notes=tuple(notes))
+                       iterations=iterations, restarts=restarts, restarts_agreeing=agreeing,
+                       collapsed=collapsed, notes=tuple(notes), likelihood=likelihood)

@@ -28,6 +28,11 @@ How a replicate's data are drawn (the *path*, reported with the result):
 ``"simulated values"``
     Parametric bootstrap of a small sample off any grid: ``n`` values drawn
     from the fitted mixture for every replicate, one row each.
+``"intervals"``
+    A model fitted to intervals (:mod:`.grouped`): multinomial counts over
+    the distinct intervals (their observed shares, or the fit's interval
+    probabilities for the parametric bootstrap), refitted by the interval
+    likelihood; there is no Newton endgame on this path.
 """
 
 from __future__ import annotations
@@ -39,6 +44,7 @@ import numpy as np
 
 from .em import EMSettings, run_batch
 from .fitting import FitSettings, degenerate_fits, standardise
+from .grouped import INTERVAL_MAX_ITER, interval_e_step_on, interval_plan
 from .mixture import Mixture
 from .newton import newton_polish
 from .parallel import replicate_rng
@@ -85,6 +91,10 @@ class ReplicatePlan:
         A standardised point of that grid (the smallest value).
     seed : int
     settings : FitSettings
+    lower, upper : ndarray, shape (m,), or None
+        Standardised ends of the support intervals when the model was fitted
+        to intervals (path ``"intervals"``): counts are drawn over the
+        intervals and refitted by the interval likelihood (:mod:`.grouped`).
     """
 
     method: str
@@ -102,6 +112,8 @@ class ReplicatePlan:
     grid_origin: float
     seed: int
     settings: FitSettings
+    lower: np.ndarray | None = None
+    upper: np.ndarray | None = None
 
     @property
     def support_size(self) -> int:
@@ -167,6 +179,8 @@ def plan_replicates(sample: Sample, model, method: str, seed: int,
     -------
     ReplicatePlan
     """
+    if sample.is_intervals:
+        return interval_plan(sample, model, method, seed, settings)
     data = standardise(sample, settings)
     mix = model.mixture
     reference = (mix.weights.copy(), (mix.means - data.center) / data.scale,
@@ -302,9 +316,12 @@ def refit_replicates(plan: ReplicatePlan, indices, x, c, cancel=None) -> RefitBa
     w0, m0, v0 = (np.tile(a, (r, 1)) for a in plan.reference)
     settings = plan.settings
     em = EMSettings(tol=settings.tol, max_iter=settings.em.max_iter)
+    if plan.lower is not None:
+        em = EMSettings(tol=settings.tol, max_iter=INTERVAL_MAX_ITER)
     result = run_batch(x, c, w0, m0, v0, n=float(plan.n), var_floor=plan.var_floor,
-                       shared=plan.shared, settings=em, cancel=cancel)
-    for i in np.flatnonzero(~result.converged):
+                       shared=plan.shared, settings=em, cancel=cancel,
+                       e_step_fn=None if plan.lower is None else interval_e_step_on(plan.lower, plan.upper))
+    for i in np.flatnonzero(~result.converged if plan.lower is None else []):
         _polish(result, i, x, c, plan, cancel)
     collapsed = degenerate_fits(result, plan.var_floor, settings)
     return RefitBatch(indices=np.asarray(indices), weights=result.weights, means=result.means,

@@ -13,7 +13,8 @@ import numpy as np
 
 from . import criteria
 from .fitting import FitSettings, FittedModel, fit_model
-from .validation import check_component_range, check_seed, check_widths, prepare_sample
+from .treatment import Treatment, resolve_treatment
+from .validation import check_component_range, check_seed, check_widths
 from ..errors import Cancelled, InputError
 
 __all__ = ["RankingRow", "ScanResult", "scan_models", "model_rng"]
@@ -45,6 +46,8 @@ class RankingRow:
         Smallest component weight.
     iterations : int
     collapsed : bool
+    likelihood : {"exact", "intervals"}
+        The likelihood the model's log-likelihood and criteria are of.
     """
 
     rank: int
@@ -63,6 +66,7 @@ class RankingRow:
     min_weight: float
     iterations: int
     collapsed: bool
+    likelihood: str = "exact"
 
 
 @dataclass(frozen=True)
@@ -79,12 +83,15 @@ class ScanResult:
     n : float
         Sample size.
     seed : int
+    treatment : Treatment or None
+        Exact values or intervals, and why (see :mod:`.treatment`).
     """
 
     models: tuple
     ranking: tuple
     n: float
     seed: int
+    treatment: Treatment | None = None
 
     @property
     def best(self) -> FittedModel:
@@ -116,7 +123,8 @@ def model_rng(seed: int, k: int, widths: str) -> np.random.Generator:
 
 
 def scan_models(values, *, counts=None, kmin=1, kmax=6, widths="separate", restarts=10, seed=0,
-                progress=None, cancel=None, settings: FitSettings | None = None) -> ScanResult:
+                progress=None, cancel=None, settings: FitSettings | None = None,
+                treatment="auto", resolution=None, bounds=None) -> ScanResult:
     """Fit every component count from kmin to kmax for each width variant and rank them.
 
     Parameters
@@ -134,12 +142,17 @@ def scan_models(values, *, counts=None, kmin=1, kmax=6, widths="separate", resta
         A set token stops the scan with :class:`~clusterdesk.errors.Cancelled`.
     settings : FitSettings, optional
         Overrides the numerical settings (``restarts`` still applies).
+    treatment : {"auto", "exact", "intervals"}, default "auto"
+    resolution : float, optional
+    bounds : tuple (lower, upper) of array_like, optional
+        Exact values or intervals: see :func:`.treatment.resolve_treatment`.
 
     Returns
     -------
     ScanResult
     """
-    sample = prepare_sample(values, counts)
+    sample, used = resolve_treatment(values, counts, treatment=treatment, resolution=resolution,
+                                     bounds=bounds)
     variants = check_widths(widths)
     check_component_range(kmin, kmax, sample)
     check_seed(seed)
@@ -152,7 +165,8 @@ def scan_models(values, *, counts=None, kmin=1, kmax=6, widths="separate", resta
         models.append(fit_model(sample, k, w, model_rng(seed, k, w), settings, cancel))
         if progress is not None:
             progress(done, len(jobs))
-    return ScanResult(models=tuple(models), ranking=rank_models(models), n=sample.n, seed=int(seed))
+    return ScanResult(models=tuple(models), ranking=rank_models(models), n=sample.n, seed=int(seed),
+                      treatment=used)
 
 
 def _with_restarts(settings, restarts):
@@ -185,5 +199,6 @@ def rank_models(models) -> tuple:
                                delta_bic=float(m.bic - best_bic), bic_weight=float(weights[i]),
                                converged=m.converged, restarts=m.restarts,
                                restarts_agreeing=m.restarts_agreeing, min_weight=m.min_weight,
-                               iterations=m.iterations, collapsed=m.collapsed))
+                               iterations=m.iterations, collapsed=m.collapsed,
+                               likelihood=m.likelihood))
     return tuple(rows)

@@ -30,13 +30,24 @@ class Sample:
     n : float
         Total count (the sample size used by BIC).
     n_distinct : int
-        Number of distinct values.
+        Number of distinct values (of distinct intervals, for interval data).
+    lower, upper : ndarray, shape (m,), or None
+        For interval data (:func:`.grouped.prepare_intervals`): each value is
+        only known to lie in ``[lower, upper)``; ``-inf``/``inf`` ends mark
+        censored readings. None for exact values.
     """
 
     values: np.ndarray
     counts: np.ndarray
     n: float
     n_distinct: int
+    lower: np.ndarray | None = None
+    upper: np.ndarray | None = None
+
+    @property
+    def is_intervals(self) -> bool:
+        """Whether the likelihood is that of intervals rather than exact values."""
+        return self.lower is not None
 
 
 def prepare_sample(values, counts=None) -> Sample:

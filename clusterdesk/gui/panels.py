@@ -24,6 +24,9 @@ SCALE_CHOICES = (("linear", "as measured (linear)"), ("ln", "natural log, ln"), 
 #: Width settings and the words shown for them.
 WIDTH_CHOICES = (("both", "both variants"), ("separate", "separate widths"), ("shared", "shared width"))
 _NO_COUNTS = "(none: each row counts once)"
+#: Treatments of the values (exact or intervals) and the words shown for them.
+TREATMENT_CHOICES = (("auto", "decide from the resolution"), ("exact", "exact values"),
+                     ("intervals", "intervals of the resolution"))
 
 
 def choice_box(choices, tip: str) -> QComboBox:
@@ -88,6 +91,13 @@ class DataPanel(QGroupBox):
         for edit, words in ((self.low, "lowest kept"), (self.high, "highest kept")):
             edit.setPlaceholderText("no limit")
             edit.setToolTip(f"The {words} value, on the original scale (inclusive); leave empty for no limit.")
+        self.values_as = choice_box(TREATMENT_CHOICES, "Exact values, or intervals: a value recorded "
+                                    "to a resolution h is only known to lie within h/2 of it (each count "
+                                    "of a tally is a class of that width). Decide from the resolution: "
+                                    "intervals for tallies and for a grid coarse against the spread.")
+        self.resolution = QLineEdit()
+        self.resolution.setToolTip("The recording step (or class width) on the original scale; leave "
+                                   "empty to use the one detected in the values.")
         self.cleaning = QLabel("")
         self.cleaning.setWordWrap(True)
         self.cleaning.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
@@ -104,6 +114,8 @@ class DataPanel(QGroupBox):
         form.addRow("Counts", self.counts)
         form.addRow("Scale", self.scale)
         form.addRow("Range", range_row)
+        form.addRow("Values as", self.values_as)
+        form.addRow("Resolution", self.resolution)
         layout = QVBoxLayout(self)
         layout.addWidget(self.source)
         layout.addWidget(self.columns)
@@ -147,8 +159,28 @@ class DataPanel(QGroupBox):
                 w.blockSignals(False)
         self._shown = self.current_choice() if measurements is not None else None
 
+    def treatment_settings(self) -> dict:
+        """``treatment`` and ``resolution`` for :class:`~clusterdesk.analysis.ScanSettings`.
+
+        An unreadable resolution is taken as empty (the detected one is used).
+        """
+        try:
+            step = _parse_limit(self.resolution.text())
+        except ValueError:
+            step = None
+        return {"treatment": self.values_as.currentData(),
+                "resolution": step if step is not None and step > 0 else None}
+
+    def set_treatment(self, settings) -> None:
+        """Show the treatment and resolution of some settings (e.g. a reopened analysis)."""
+        self.values_as.setCurrentIndex(max(self.values_as.findData(settings.treatment), 0))
+        self.resolution.setText("" if settings.resolution is None else f"{settings.resolution:g}")
+
     def _fill(self, m, data, sheets, source_label) -> None:
         self.setEnabled(m is not None)
+        detected = getattr(m, "resolution", None)
+        self.resolution.setPlaceholderText("none detected" if detected is None
+                                           else f"detected: {detected:g}")
         self._sheets = sheets
         self.sheet.clear()
         self.sheet.addItems(sheets)

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import html
+
 from PySide6.QtCore import Qt, Signal
 from PySide6.QtWidgets import (QDoubleSpinBox, QGridLayout, QGroupBox, QLabel,
                                QPushButton, QSpinBox, QVBoxLayout)
@@ -126,6 +128,8 @@ def ranking_words(analysis) -> str:
         words += f" Shown: <b>your choice, {model_words(chosen.k, chosen.widths)}</b>."
     else:
         words += " Select a row to show that model."
+    if scan.treatment is not None:
+        words += f"<br>Values treated as: {html.escape(scan.treatment.describe())}"
     return words
 
 

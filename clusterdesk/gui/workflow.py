@@ -9,6 +9,8 @@ through the ``ask_*`` methods, which tests replace.
 
 from __future__ import annotations
 
+import dataclasses
+
 import functools
 import traceback
 from pathlib import Path
@@ -100,7 +102,7 @@ class Workflow:
         if path.endswith(ANALYSIS_SUFFIX):
             self.open_analysis(path)
             return
-        settings = self.fit_panel.settings()
+        settings = self.current_settings()
         data = data or DataChoice()
         self.task_unit = "reading"
 
@@ -127,7 +129,7 @@ class Workflow:
         if "\n" not in stripped and Path(stripped).is_file():
             self.open_path(stripped)
             return
-        settings = self.fit_panel.settings()
+        settings = self.current_settings()
         self.task_unit = "reading"
 
         def apply(analysis):
@@ -142,7 +144,7 @@ class Workflow:
         a = self.analysis
         if a is None or self.runner.busy:
             return
-        settings = self.fit_panel.settings()
+        settings = self.current_settings()
         path, text, sheets = a.source_path, self.pasted_text, self.sheets
         if text is not None:
             work = lambda p, c: (Analysis.from_text(text, choice, settings), sheets)  # noqa: E731
@@ -191,9 +193,13 @@ class Workflow:
         self._excluded_dialog.open()
 
     # ---------------------------------------------------------------- fitting
+    def current_settings(self):
+        """The scan settings the panels show: the fit panel's, with the measurement panel's treatment."""
+        return dataclasses.replace(self.fit_panel.settings(), **self.data_panel.treatment_settings())
+
     def fit_from_panel(self) -> None:
         """Fit with the settings the panel shows."""
-        self.fit(self.fit_panel.settings())
+        self.fit(self.current_settings())
 
     def fit(self, settings) -> None:
         """Scan the component counts on the worker; apply the result when it is complete."""
@@ -336,6 +342,7 @@ class Workflow:
             if Path(analysis.source_path).suffix.lower() in _WORKBOOK:
                 sheets = sheet_names(analysis.source_path)
             self.fit_panel.set_settings(analysis.settings)
+            self.data_panel.set_treatment(analysis.settings)
             self._take(analysis, sheets, pasted=None)
             self.saved_path = str(path)
             self._remember(path)

@@ -39,6 +39,10 @@ def format_number(value) -> str:
 
 
 def _cell(value) -> str:
+    if type(value) is float:  # the common cell of large tables, first and cheapest
+        if value != value:
+            return ""
+        return repr(value) if -math.inf < value < math.inf else ("inf" if value > 0 else "-inf")
     if isinstance(value, str):
         return neutralise(value)
     if hasattr(value, "item"):  # numpy scalar

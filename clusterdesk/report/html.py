@@ -18,7 +18,7 @@ import numpy as np
 from .._version import __version__
 from ..atomic import write_text_atomic
 from . import figures
-from .tables import CAUTION, components_table, ranking_table
+from .tables import CAUTION, components_table, ranking_table, treatment_words
 
 __all__ = ["render_report", "write_report"]
 
@@ -93,6 +93,7 @@ def _settings_section(analysis) -> str:
     s = analysis.settings
     rows = [("component counts", f"{s.kmin} to {s.kmax}"), ("widths", s.widths),
             ("restarts per model", s.restarts), ("seed", s.seed),
+            ("values treated as", treatment_words(analysis.scan)),
             ("criterion", "BIC = -2 log L + p ln n (Schwarz 1978), lower is better")]
     return "<h2>Settings</h2>" + _table(("setting", "value"), rows, text_columns=(0, 1))
 

@@ -15,7 +15,7 @@ from .._version import __version__
 from ..atomic import write_text_atomic
 from .csvfile import write_csv
 
-__all__ = ["Table", "ranking_table", "components_table", "assignment_table", "summary_dict",
+__all__ = ["Table", "ranking_table", "treatment_words", "treatment_dict", "components_table", "assignment_table", "summary_dict",
            "write_tables", "CAUTION"]
 
 #: The caution shown wherever cut points are shown.
@@ -28,7 +28,7 @@ _BACK = {"ln": np.exp, "log10": lambda v: np.power(10.0, v)}
 
 @dataclass(frozen=True)
 class Table:
-    """A header and its rows."""
+    """A header and its rows (a list; the assignment table streams them, one pass only)."""
 
     header: tuple
     rows: list
@@ -38,11 +38,25 @@ def ranking_table(scan) -> Table:
     """Every scanned model, best first."""
     header = ("rank", "components", "widths", "log_likelihood", "parameters", "bic",
               "delta_bic", "bic_weight", "aic", "icl", "converged", "restarts",
-              "restarts_agreeing", "smallest_weight", "iterations", "collapsed")
+              "restarts_agreeing", "smallest_weight", "iterations", "collapsed", "likelihood")
     rows = [(r.rank, r.k, r.widths, r.loglik, r.n_params, r.bic, r.delta_bic, r.bic_weight,
              r.aic, r.icl, r.converged, r.restarts, r.restarts_agreeing, r.min_weight,
-             r.iterations, r.collapsed) for r in scan.ranking]
+             r.iterations, r.collapsed, r.likelihood) for r in scan.ranking]
     return Table(header, rows)
+
+
+def treatment_words(scan) -> str:
+    """One line saying which likelihood the scan used and why."""
+    if scan.treatment is None:
+        return f"likelihood of {scan.ranking[0].likelihood} values"
+    return scan.treatment.describe()
+
+
+def treatment_dict(scan) -> dict:
+    """Which likelihood the scan used (exact values or intervals), and why."""
+    if scan.treatment is None:
+        return {"used": scan.ranking[0].likelihood}
+    return {**scan.treatment.as_dict(), "description": treatment_words(scan)}
 
 
 def components_table(analysis) -> Table:
@@ -114,13 +128,18 @@ def assignment_table(analysis) -> Table:
     k = a["posterior"].shape[1]
     header = ("line", "value", "status", "component", "max_posterior") + tuple(
         f"posterior_{j + 1}" for j in range(k))
-    rows = []
-    for i in range(a["line"].size):
-        kept = bool(a["kept"][i])
-        rows.append([int(a["line"][i]), float(a["value"][i]), a["reason"][i],
-                     int(a["component"][i]) if kept else None, float(a["max_posterior"][i]),
-                     *a["posterior"][i].tolist()])
-    return Table(header, rows)
+    return Table(header, _assignment_rows(a))
+
+
+def _assignment_rows(a, block: int = 1 << 16):
+    """The assignment rows one at a time (ten million rows never sit in memory as lists)."""
+    for start in range(0, a["line"].size, block):
+        part = slice(start, start + block)
+        for line, value, reason, component, kept, top, posterior in zip(
+                a["line"][part].tolist(), a["value"][part].tolist(), a["reason"][part],
+                a["component"][part].tolist(), a["kept"][part].tolist(),
+                a["max_posterior"][part].tolist(), a["posterior"][part].tolist()):
+            yield [line, value, reason, component if kept else None, top, *posterior]
 
 
 def summary_dict(analysis) -> dict:
@@ -142,7 +161,9 @@ def summary_dict(analysis) -> dict:
                      "scale": m.scale, "low": m.low, "high": m.high},
         "settings": {"kmin": analysis.settings.kmin, "kmax": analysis.settings.kmax,
                      "widths": analysis.settings.widths, "restarts": analysis.settings.restarts,
-                     "seed": analysis.settings.seed},
+                     "seed": analysis.settings.seed, "treatment": analysis.settings.treatment,
+                     "resolution": analysis.settings.resolution},
+        "treatment": treatment_dict(scan),
         "best": {"components": scan.best.k, "widths": scan.best.widths,
                  "evidence_over_runner_up": scan.evidence},
         "chosen": {"components": chosen.k, "widths": chosen.widths, "log_likelihood": chosen.loglik,

@@ -26,11 +26,12 @@ from ..engine.validation import max_components, prepare_sample
 from ..errors import Cancelled, InputError
 from . import filecache
 
-__all__ = ["TREATMENT_EXACT", "ColumnTask", "ScreenRow", "ListJob", "ColumnJob", "JobFailure",
+__all__ = ["TREATMENT_EXACT", "TREATMENT_INTERVALS", "ColumnTask", "ScreenRow", "ListJob", "ColumnJob", "JobFailure",
            "column_seed", "screen_column", "run_job", "failed_row", "describe_model", "HISTOGRAM_BINS"]
 
 #: How the values enter the likelihood: each value as an exact number.
 TREATMENT_EXACT = "exact values"
+TREATMENT_INTERVALS = "intervals of the resolution"
 #: Bins of the small histogram kept with each row (for the overview's plot).
 HISTOGRAM_BINS = 40
 
@@ -91,7 +92,8 @@ class ScreenRow:
     resolution : float or None
         Step of the value grid, None for continuous values.
     treatment : str
-        How the values enter the likelihood (``"exact values"``).
+        How the values enter the likelihood (``"exact values"`` or
+        ``"intervals of the resolution"``, as the automatic treatment chose).
     kmin, kmax : int or None
         Range of component counts scanned (kmax is lowered, with a note, when
         the column has too few distinct values for the one asked).
@@ -267,8 +269,8 @@ def _fit(data: filecache.ColumnValues, task: ColumnTask, settings: ScanSettings,
         file=task.file, sheet=task.sheet or "", column=task.column, position=task.position, status="ok",
         rows_read=data.rows_read, rows_kept=data.rows_kept, rows_excluded=data.rows_read - data.rows_kept,
         excluded_reasons="; ".join(f"{n} {words}" for words, n in data.excluded.items()),
-        resolution=data.resolution, treatment=TREATMENT_EXACT, kmin=settings.kmin, kmax=kmax,
-        best_k=best.k, best_widths=best.widths, bic=float(best.bic),
+        resolution=data.resolution, kmin=settings.kmin, kmax=kmax, best_k=best.k,
+        treatment=TREATMENT_INTERVALS if result.treatment.used == "intervals" else TREATMENT_EXACT, best_widths=best.widths, bic=float(best.bic),
         runner_up=describe_model(second.k, second.widths) if second else "",
         bic_gap=float(second.delta_bic) if second else None,
         evidence=evidence_wording(second.delta_bic) if second else "",

@@ -134,8 +134,9 @@ def test_fine_histogram_agrees_with_resampling_the_raw_values():
 def test_parametric_bootstrap_of_rounded_values_uses_the_grid():
     # Values recorded to 0.1: simulated samples are rounded alike (counts over
     # grid cells); the mean's standard error is still s / sqrt(n) (as above).
+    # The values are taken as exact here (the grid path of exact values).
     x = np.round(np.random.default_rng(9).normal(20.0, 2.0, 500), 1)
-    model = clusterdesk.fit(x, 1)
+    model = clusterdesk.fit(x, 1, treatment="exact")
     result = clusterdesk.bootstrap(x, model, replicates=1000, method="parametric", seed=6)
     assert result.path == "grid"
     assert result.mean_se[0] == pytest.approx(np.std(x, ddof=1) / np.sqrt(x.size), rel=0.10)

@@ -1,0 +1,204 @@
+"""Exact values or intervals: which likelihood a sample is fitted with.
+
+A value recorded to a resolution ``h`` is only known to lie in
+``[x - h/2, x + h/2)``; a tally class of width ``h`` holds values anywhere in
+it; a reading below a detection limit lies below it.  The *treatment* says
+whether the fit uses the likelihood of exact values (densities) or of
+intervals (:mod:`.grouped`).
+
+``"auto"`` (the default) decides from the data:
+
+* censored readings (an interval end at infinity) need intervals;
+* a value/count table on a grid is a tally: intervals of the class width;
+* values on a grid whose step is coarse against their spread are intervals
+  (the step at least ``COARSE_FRACTION`` of the robust standard deviation:
+  below that the rounding variance ``h**2 / 12`` is under 4e-5 of the
+  variance and both likelihoods give the same fit);
+* otherwise the values are exact.
+
+``"exact"`` and ``"intervals"`` force one treatment.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..errors import InputError
+from ..grid import grid_step
+from .fitting import _robust_spread
+from .grouped import prepare_intervals
+from .validation import Sample, prepare_sample, weighted_mean_sd
+
+__all__ = ["Treatment", "TREATMENTS", "COARSE_FRACTION", "resolve_treatment"]
+
+TREATMENTS = ("auto", "exact", "intervals")
+#: A grid step at least this fraction of the robust spread is "coarse" (our choice, see above).
+COARSE_FRACTION = 0.02
+
+
+@dataclass(frozen=True)
+class Treatment:
+    """Which likelihood a fit used, and why.
+
+    Attributes
+    ----------
+    requested : {"auto", "exact", "intervals"}
+    used : {"exact", "intervals"}
+    resolution : float or None
+        Width of the intervals (the grid step or class width) on the values'
+        scale; None for exact values or intervals given end by end.
+    censored : int
+        Observations with an open-ended interval (e.g. below a detection limit).
+    reason : str
+        One sentence in plain words.
+    """
+
+    requested: str
+    used: str
+    resolution: float | None
+    censored: int
+    reason: str
+
+    def describe(self) -> str:
+        """A line for tables, reports and the window."""
+        if self.used == "exact":
+            what = "Likelihood of exact values"
+        elif self.resolution is not None:
+            what = f"Likelihood of intervals of width {self.resolution:g}"
+        else:
+            what = "Likelihood of intervals"
+        how = "chosen automatically" if self.requested == "auto" else "as requested"
+        return f"{what} ({how}): {self.reason}"
+
+    def as_dict(self) -> dict:
+        """Plain JSON types, for summaries and saved analyses."""
+        return {"requested": self.requested, "used": self.used, "resolution": self.resolution,
+                "censored": self.censored, "reason": self.reason}
+
+
+def check_treatment(treatment) -> str:
+    """``"auto"``, ``"exact"`` or ``"intervals"``; anything else is an :class:`InputError`."""
+    if treatment not in TREATMENTS:
+        raise InputError(f"Unknown treatment {treatment!r}; use 'auto' (decide from the "
+                         "resolution), 'exact' (values as exact) or 'intervals' (each value "
+                         "known only to lie within its resolution).")
+    return treatment
+
+
+def resolve_treatment(values, counts=None, *, treatment="auto", resolution=None,
+                      bounds=None) -> tuple[Sample, Treatment]:
+    """Decide the treatment and prepare the sample for it.
+
+    Parameters
+    ----------
+    values : array_like, shape (n,)
+    counts : array_like, shape (n,), optional
+    treatment : {"auto", "exact", "intervals"}, default "auto"
+    resolution : float, optional
+        Recording step (or class width) of the values; default: detected
+        (:func:`clusterdesk.grid.grid_step`).
+    bounds : tuple (lower, upper) of array_like, each shape (n,), optional
+        Each value's interval given end by end (e.g. after a log transform, or
+        ``-inf`` for a reading below a detection limit); takes precedence over
+        ``resolution`` for the intervals.  Under ``"exact"`` they are not used.
+
+    Returns
+    -------
+    sample : Sample
+        Exact values, or intervals (``sample.lower`` set).
+    treatment : Treatment
+    """
+    check_treatment(treatment)
+    step = _check_resolution(resolution)
+    sample = prepare_sample(values, counts)  # validated and sorted once
+    if treatment == "exact":
+        return _exact_sample(sample), Treatment(
+            "exact", "exact", None, 0, "each value is taken at face value.")
+    if bounds is None and step is None:
+        step = grid_step(sample.values)
+    censored = 0 if bounds is None else _count_censored(bounds, counts)
+    if bounds is None and step is None:
+        if treatment == "intervals":
+            raise InputError("No recording grid was found in the values, so their intervals are "
+                             "unknown; give the resolution (e.g. 0.1) or use the exact treatment.")
+        return _exact_sample(sample), Treatment(
+            "auto", "exact", None, 0, "no recording grid was found, so the values are taken as exact.")
+    if treatment == "auto":
+        use, reason = _auto_choice(sample, counts is not None, step, bounds, censored)
+        if not use:
+            return _exact_sample(sample), Treatment("auto", "exact", None, 0, reason)
+    else:
+        reason = "each value is known only to lie within its interval."
+    if bounds is not None:
+        grouped = prepare_intervals(values, counts, bounds[0], bounds[1])
+    else:
+        v, n = _tied(sample)
+        grouped = prepare_intervals(v, n, v - 0.5 * step, v + 0.5 * step)
+    return grouped, Treatment(treatment, "intervals", None if bounds is not None else step,
+                              censored, reason)
+
+
+def _check_resolution(resolution):
+    if resolution is None:
+        return None
+    try:
+        step = float(resolution)
+    except (TypeError, ValueError):
+        step = float("nan")
+    if not (np.isfinite(step) and step > 0):
+        raise InputError(f"The resolution must be a positive number (the recording step, e.g. "
+                         f"0.1), got {resolution!r}.")
+    return step
+
+
+def _count_censored(bounds, counts):
+    lower, upper = (np.asarray(b, dtype=np.float64) for b in bounds)
+    open_end = np.isinf(lower) | np.isinf(upper)
+    if counts is None:
+        return int(open_end.sum())
+    return int(np.round(np.asarray(counts, dtype=np.float64)[open_end].sum()))
+
+
+def _auto_choice(sample, tally, step, bounds, censored):
+    if censored:
+        return True, (f"{censored} readings lie beyond a limit (censored), which only the "
+                      "likelihood of intervals can use.")
+    width = step
+    if bounds is not None:
+        lower, upper = (np.asarray(b, dtype=np.float64) for b in bounds)
+        width = float(np.median(upper - lower))
+    if tally:
+        return True, ("a value/count table: each count is a class of width "
+                      f"{width:.4g}, so each value is an interval.")
+    spread = _robust_sd(sample.values, sample.counts)
+    share = width / spread if spread > 0 else np.inf
+    if share >= COARSE_FRACTION:
+        return True, (f"the values lie on a grid (intervals {width:.4g} wide, {100 * share:.2g} % "
+                      "of the robust spread), coarse enough for rounding to matter.")
+    return False, (f"the values lie on a grid of step {width:.4g}, fine against their spread "
+                   f"({100 * share:.2g} % of the robust spread), so they are taken as exact.")
+
+
+def _robust_sd(x, c):
+    """The robust spread the fit's variance floor uses, in the values' units."""
+    center, sd = weighted_mean_sd(x, c)
+    return sd * _robust_spread((x - center) / sd, c) if sd > 0 else 0.0
+
+
+def _tied(sample: Sample):
+    """Distinct values and their total counts (the sample is sorted, so ties are neighbours)."""
+    x, c = sample.values, sample.counts
+    first = np.flatnonzero(np.r_[True, x[1:] != x[:-1]])
+    return x[first], np.add.reduceat(c, first)
+
+
+def _exact_sample(sample: Sample) -> Sample:
+    """Exact values with ties gathered into counts: the same likelihood, a cost set by the distinct values."""
+    if sample.n_distinct == sample.values.size:
+        return sample
+    v, n = _tied(sample)
+    v.setflags(write=False)
+    n.setflags(write=False)
+    return Sample(values=v, counts=n, n=sample.n, n_distinct=sample.n_distinct)

@@ -68,8 +68,14 @@ def test_log_scale_intervals_are_the_transformed_ends(tmp_path):
     assert analysis.scan.treatment.used == "intervals"
     boot = analysis.run_intervals(replicates=20)
     assert boot.path == "intervals"
-    saved = json.loads(analysis.save(tmp_path / "powder").read_text(encoding="utf-8"))
+    path = analysis.save(tmp_path / "powder")
+    saved = json.loads(path.read_text(encoding="utf-8"))
     assert saved["settings"]["treatment"] == "intervals"
+    reopened = Analysis.open(path).analysis  # same settings, same seed: the same numbers
+    assert reopened.settings.treatment == "intervals"
+    assert reopened.scan.treatment.used == "intervals"
+    assert [(r.k, r.widths, r.loglik) for r in reopened.scan.ranking] == \
+        [(r.k, r.widths, r.loglik) for r in analysis.scan.ranking]
 
 
 def test_below_detection_rows_enter_the_serosurvey_fit_as_censored_intervals():

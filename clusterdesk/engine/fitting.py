@@ -52,8 +52,12 @@ class FitSettings:
         hands over to Newton steps once its gains per cycle are small.
     tol : float, default 1e-10
         Final convergence: certified remaining log-likelihood gain per unit of count.
-    newton_steps : int, default 200
-        Cap on Newton steps per restart.
+    newton_steps : int, default 500
+        Cap on Newton trial points per restart (on the values themselves).
+    binned_newton_steps : int, default 2000
+        The same cap on the histogram, where a step costs little: walking a
+        flat ridge to its end there leaves the polish on the raw values a
+        short walk.
     screen : int, default 3
         ``screen * restarts`` starts are made; short EM runs of
         ``screen_steps`` steps keep the best ``restarts`` for full fits.
@@ -80,7 +84,8 @@ class FitSettings:
     restarts: int = 10
     em: EMSettings = EMSettings(tol=1e-6, max_iter=600)
     tol: float = 1e-10
-    newton_steps: int = 200
+    newton_steps: int = 500
+    binned_newton_steps: int = 2000
     screen: int = 3
     screen_steps: int = 30
     spike_weight: float = 0.01
@@ -237,9 +242,10 @@ def _screened_starts(x, c, k, shared, rng, var_floor, settings, cancel):
     return short.weights[keep], short.means[keep], short.variances[keep]
 
 
-def _run(x, c, data, k, shared, starts, settings, cancel, var_floor=None):
+def _run(x, c, data, k, shared, starts, settings, cancel, var_floor=None, max_steps=None):
     """EM on every start side by side, then certified Newton steps on each."""
     floor = data.var_floor if var_floor is None else var_floor
+    max_steps = settings.newton_steps if max_steps is None else max_steps
     w0, m0, v0 = starts
     if shared:
         v0 = np.repeat(np.average(v0, axis=1, weights=w0)[:, None], k, axis=1)
@@ -253,7 +259,7 @@ def _run(x, c, data, k, shared, starts, settings, cancel, var_floor=None):
             continue  # a dead component: degenerate, nothing to certify
         end = newton_polish(x, c, result.weights[i], result.means[i], result.variances[i],
                             shared=shared, var_floor=floor, tol_abs=settings.tol * n,
-                            max_steps=settings.newton_steps, cancel=cancel)
+                            max_steps=max_steps, cancel=cancel)
         if end.loglik >= result.loglik[i]:
             result.weights[i], result.means[i], result.variances[i] = (
                 end.weights, end.means, end.variances)
@@ -273,7 +279,8 @@ def _fit_binned_then_polish(data, k, shared, rng, settings, cancel):
     width = edges[1] - edges[0]
     floor_b = max(data.var_floor, width * width)
     starts = _screened_starts(xb, cb, k, shared, rng, floor_b, settings, cancel)
-    binned = _run(xb, cb, data, k, shared, starts, settings, cancel, var_floor=floor_b)
+    binned = _run(xb, cb, data, k, shared, starts, settings, cancel, var_floor=floor_b,
+                  max_steps=settings.binned_newton_steps)
     degenerate = degenerate_fits(binned, floor_b, settings)
     best = _best_index(binned.loglik, degenerate)
     agreeing = _count_agreeing(binned.loglik, best, data.n, settings.agree_tol)
@@ -286,10 +293,17 @@ def _fit_binned_then_polish(data, k, shared, rng, settings, cancel):
 
 
 def _distinct_candidates(loglik, degenerate, n, settings):
+    """Up to ``settings.polish`` restarts with distinct log-likelihoods, best first.
+
+    Degenerate restarts are polished only when no restart is credible: the
+    collapse rule sets them aside anyway, and on the raw values Newton steps
+    would chase their unbounded likelihood (a spike narrowing onto a few
+    values) to the step limit.
+    """
     order = np.lexsort((-loglik, degenerate))
     picks = []
     for i in order:
-        if not np.isfinite(loglik[i]):
+        if not np.isfinite(loglik[i]) or (picks and degenerate[i]):
             continue
         if all(abs(loglik[i] - loglik[j]) > settings.agree_tol * n for j in picks):
             picks.append(int(i))
@@ -317,10 +331,15 @@ def degenerate_fits(result, var_floor, settings):
     -------
     ndarray of bool, shape (r,)
     """
-    at_floor = np.any(result.variances <= var_floor * (1.0 + 1e-6), axis=1)
-    too_small = np.any(result.nk < settings.min_count, axis=1)
-    return at_floor | too_small | has_spike(result.weights, np.sqrt(result.variances), settings) \
+    return _degenerate_rows(result.weights, result.variances, result.nk, var_floor, settings) \
         | ~np.isfinite(result.loglik)
+
+
+def _degenerate_rows(weights, variances, nk, var_floor, settings):
+    """Collapse rule on parameters of shape (..., k): floor, too few observations, spike."""
+    at_floor = np.any(variances <= var_floor * (1.0 + 1e-6), axis=-1)
+    too_small = np.any(nk < settings.min_count, axis=-1)
+    return at_floor | too_small | has_spike(weights, np.sqrt(variances), settings)
 
 
 def has_spike(weights, sds, settings: "FitSettings"):

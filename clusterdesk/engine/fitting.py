@@ -31,6 +31,7 @@ from . import criteria
 from ..errors import Cancelled
 from .em import EMSettings, run_batch
 from .newton import newton_polish
+from .outliers import far_out_fences, held_values, outlier_note
 from .mixture import Mixture
 from .resolution import detect_grid_step
 from .starts import make_starts
@@ -130,6 +131,9 @@ class FittedModel:
         Every restart ended degenerate; the numbers describe a spurious fit.
     notes : tuple of str
         Plain-words remarks on the fit (no convergence, collapse, ...).
+    suspect_values : tuple of float
+        When the model collapsed onto values far outside the rest of the
+        sample, those values (see :mod:`.outliers`); empty otherwise.
     """
 
     mixture: Mixture
@@ -148,6 +152,7 @@ class FittedModel:
     restarts_agreeing: int
     collapsed: bool
     notes: tuple = ()
+    suspect_values: tuple = ()
 
     @property
     def min_weight(self) -> float:
@@ -218,8 +223,23 @@ def fit_model(sample: Sample, k: int, widths: str, rng: np.random.Generator,
     if agreeing is None:
         agreeing = _count_agreeing(result.loglik, best, data.n, settings.agree_tol)
     restarts = int(result.loglik.size) if used == 0 else used
+    suspects = _suspect_values(data, sample, result, best, settings) if degenerate[best] else ()
     return _finish(data, sample, result, best, k, widths, agreeing, restarts,
-                   collapsed=bool(degenerate[best]))
+                   collapsed=bool(degenerate[best]), suspects=suspects)
+
+
+def _suspect_values(data, sample, result, best, settings):
+    """Values beyond the far-out fences that the collapsed components of ``best`` hold."""
+    weights, variances, nk = result.weights[best], result.variances[best], result.nk[best]
+    culprits = _degenerate_components(weights, variances, nk, data.var_floor, settings)
+    if not culprits.any() or not np.all(np.isfinite(variances)):
+        return ()
+    held = held_values(sample.values, weights, data.center + data.scale * result.means[best],
+                       data.scale * np.sqrt(variances), culprits)
+    lower, upper = far_out_fences(sample.values, sample.counts)
+    if held.size == 0 or np.any((held >= lower) & (held <= upper)):
+        return ()
+    return tuple(float(v) for v in held)
 
 
 def _screened_starts(x, c, k, shared, rng, var_floor, settings, cancel):
@@ -331,15 +351,16 @@ def degenerate_fits(result, var_floor, settings):
     -------
     ndarray of bool, shape (r,)
     """
-    return _degenerate_rows(result.weights, result.variances, result.nk, var_floor, settings) \
+    return np.any(_degenerate_components(result.weights, result.variances, result.nk,
+                                         var_floor, settings), axis=-1) \
         | ~np.isfinite(result.loglik)
 
 
-def _degenerate_rows(weights, variances, nk, var_floor, settings):
-    """Collapse rule on parameters of shape (..., k): floor, too few observations, spike."""
-    at_floor = np.any(variances <= var_floor * (1.0 + 1e-6), axis=-1)
-    too_small = np.any(nk < settings.min_count, axis=-1)
-    return at_floor | too_small | has_spike(weights, np.sqrt(variances), settings)
+def _degenerate_components(weights, variances, nk, var_floor, settings):
+    """Components, shape (..., k), that trigger the collapse rule: floor, too few, spike."""
+    at_floor = variances <= var_floor * (1.0 + 1e-6)
+    too_small = nk < settings.min_count
+    return at_floor | too_small | _spikes(weights, np.sqrt(variances), settings)
 
 
 def has_spike(weights, sds, settings: "FitSettings"):
@@ -360,9 +381,12 @@ def has_spike(weights, sds, settings: "FitSettings"):
     -------
     ndarray of bool, shape (...)
     """
+    return np.any(_spikes(weights, sds, settings), axis=-1)
+
+
+def _spikes(weights, sds, settings):
     widest = sds.max(axis=-1, keepdims=True)
-    spike = (weights < settings.spike_weight) & (sds < settings.spike_sd_ratio * widest)
-    return np.any(spike, axis=-1)
+    return (weights < settings.spike_weight) & (sds < settings.spike_sd_ratio * widest)
 
 
 def _best_index(loglik, degenerate):
@@ -376,7 +400,7 @@ def _count_agreeing(loglik, best, n, tol):
     return int(np.sum(np.abs(loglik - loglik[best]) <= tol * n + 1e-9))
 
 
-def _finish(data, sample, result, best, k, widths, agreeing, restarts, collapsed):
+def _finish(data, sample, result, best, k, widths, agreeing, restarts, collapsed, suspects=()):
     scale = data.scale
     mixture = Mixture(weights=result.weights[best],
                       means=data.center + scale * result.means[best],
@@ -394,8 +418,11 @@ def _finish(data, sample, result, best, k, widths, agreeing, restarts, collapsed
     if collapsed:
         notes.append("Every restart ended with a component squeezed onto a few values "
                      "(a spurious maximum); this model is not a credible description.")
+    if suspects:
+        notes.append(outlier_note(suspects))
     return FittedModel(mixture=mixture, k=k, widths=widths, loglik=loglik, n=data.n,
                        n_params=n_params, bic=bic, aic=criteria.aic(loglik, n_params),
                        icl=criteria.icl(bic, entropy), entropy=entropy, converged=converged,
                        iterations=int(result.iterations[best]), restarts=restarts,
-                       restarts_agreeing=agreeing, collapsed=collapsed, notes=tuple(notes))
+                       restarts_agreeing=agreeing, collapsed=collapsed, notes=tuple(notes),
+                       suspect_values=tuple(suspects))

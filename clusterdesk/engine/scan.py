@@ -13,6 +13,7 @@ import numpy as np
 
 from . import criteria
 from .fitting import FitSettings, FittedModel, fit_model
+from .outliers import outlier_note
 from .validation import check_component_range, check_seed, check_widths, prepare_sample
 from ..errors import Cancelled, InputError
 
@@ -79,12 +80,19 @@ class ScanResult:
     n : float
         Sample size.
     seed : int
+    notes : tuple of str
+        Plain-words remarks on the scan as a whole, e.g. values far outside
+        the rest of the sample on which models collapsed (:mod:`.outliers`).
+    suspect_values : tuple of float
+        Those values, ascending; empty when there are none.
     """
 
     models: tuple
     ranking: tuple
     n: float
     seed: int
+    notes: tuple = ()
+    suspect_values: tuple = ()
 
     @property
     def best(self) -> FittedModel:
@@ -152,7 +160,10 @@ def scan_models(values, *, counts=None, kmin=1, kmax=6, widths="separate", resta
         models.append(fit_model(sample, k, w, model_rng(seed, k, w), settings, cancel))
         if progress is not None:
             progress(done, len(jobs))
-    return ScanResult(models=tuple(models), ranking=rank_models(models), n=sample.n, seed=int(seed))
+    suspects = tuple(sorted({v for m in models for v in m.suspect_values}))
+    notes = (outlier_note(suspects),) if suspects else ()
+    return ScanResult(models=tuple(models), ranking=rank_models(models), n=sample.n,
+                      seed=int(seed), notes=notes, suspect_values=suspects)
 
 
 def _with_restarts(settings, restarts):

@@ -23,7 +23,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["NewtonOutcome", "loglik_derivatives", "newton_polish"]
+__all__ = ["NewtonOutcome", "loglik_derivatives", "newton_polish", "trust_region_step"]
 
 _HALF_LOG_2PI = 0.5 * float(np.log(2.0 * np.pi))
 _CHUNK_ROWS = 1 << 16
@@ -224,7 +224,7 @@ def newton_polish(x, c, weights, means, variances, *, shared, var_floor, tol_abs
                 if decrement <= tol_abs:
                     converged = True
                     break
-        s_rot = _trust_region_step(eigval, g_rot, radius, floor_eig)
+        s_rot = trust_region_step(eigval, g_rot, radius, floor_eig)
         predicted = float(g_rot @ s_rot - 0.5 * np.sum(eigval * s_rot**2))
         length = float(np.sqrt(s_rot @ s_rot))
         trial = theta + eigvec @ s_rot
@@ -254,7 +254,7 @@ def newton_polish(x, c, weights, means, variances, *, shared, var_floor, tol_abs
                          converged=converged, steps=steps, nk=nk)
 
 
-def _trust_region_step(eigval, g_rot, radius, floor_eig):
+def trust_region_step(eigval, g_rot, radius, floor_eig):
     """Maximiser of the quadratic model within ``radius``, in the Hessian's eigenbasis.
 
     Maximises ``g's - s'As/2`` (``A = -H`` with eigenvalues ``eigval``) over

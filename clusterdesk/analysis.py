@@ -273,6 +273,11 @@ class Analysis:
         scan = self._need_scan()
         return scan.best if self.choice is None else scan.model(*self.choice)
 
+    @property
+    def fit_notes(self) -> tuple:
+        """Notes on the scan as a whole (e.g. far-out values), then on the chosen model; each once."""
+        return tuple(dict.fromkeys(self._need_scan().notes + self.chosen.notes))
+
     # -------------------------------------------------------------- intervals
     def compute_intervals(self, *, replicates: int = 200, method: str = "resample", level: float = 0.95,
                           seed: int | None = None, progress=None, cancel=None):

@@ -225,7 +225,7 @@ def run_fit(args, out) -> int:
     print(f"\n{label.capitalize()} model: {chosen.k} components, {chosen.widths} widths "
           f"(BIC evidence of the best over the runner-up: {analysis.scan.evidence or 'n/a'})", file=out)
     print(format_components(chosen), file=out)
-    for note in chosen.notes:
+    for note in analysis.fit_notes:
         print(f"note: {note}", file=out)
     if analysis.intervals is not None:
         print(format_intervals(analysis.intervals), file=out)

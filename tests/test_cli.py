@@ -160,3 +160,20 @@ def test_screen_subcommand_summarises_every_column(tmp_path, capsys):
     direct = clusterdesk.scan(values, kmin=1, kmax=4, widths="both")
     assert int(length["best_k"]) == direct.best.k
     assert (tmp_path / "overview.html").is_file()
+
+
+def test_fit_names_a_wild_value_and_a_range_limit_clears_it(tmp_path, capsys):
+    # Synthetic: two groups of 150 values, N(20, 1) and N(26, 1), and one
+    # recording error of 1000000 (common practice: far beyond Tukey's far-out fences).
+    rng = np.random.default_rng(8)
+    values = np.concatenate([rng.normal(20.0, 1.0, 150), rng.normal(26.0, 1.0, 150), [1e6]])
+    source = tmp_path / "lengths.csv"
+    source.write_text("length\n" + "\n".join(f"{v:.3f}" for v in values) + "\n", encoding="utf-8")
+    assert main(["fit", str(source), "--kmax", "3", "--widths", "separate"]) == 0
+    out = capsys.readouterr().out
+    assert "note: 1 value lies far outside the rest of the sample" in out
+    assert "1e+06" in out and "range limit" in out
+    assert main(["fit", str(source), "--kmax", "3", "--widths", "separate", "--high", "1000"]) == 0
+    out = capsys.readouterr().out
+    assert "far outside" not in out
+    assert "Best model: 2 components" in out

@@ -31,6 +31,7 @@ from . import criteria
 from ..errors import Cancelled
 from .em import EMSettings, run_batch
 from .newton import newton_polish
+from .outliers import far_out_fences, held_values, outlier_note
 from .mixture import Mixture
 from .resolution import detect_grid_step
 from .starts import make_starts
@@ -52,8 +53,12 @@ class FitSettings:
         hands over to Newton steps once its gains per cycle are small.
     tol : float, default 1e-10
         Final convergence: certified remaining log-likelihood gain per unit of count.
-    newton_steps : int, default 200
-        Cap on Newton steps per restart.
+    newton_steps : int, default 500
+        Cap on Newton trial points per restart (on the values themselves).
+    binned_newton_steps : int, default 2000
+        The same cap on the histogram, where a step costs little: walking a
+        flat ridge to its end there leaves the polish on the raw values a
+        short walk.
     screen : int, default 3
         ``screen * restarts`` starts are made; short EM runs of
         ``screen_steps`` steps keep the best ``restarts`` for full fits.
@@ -80,7 +85,8 @@ class FitSettings:
     restarts: int = 10
     em: EMSettings = EMSettings(tol=1e-6, max_iter=600)
     tol: float = 1e-10
-    newton_steps: int = 200
+    newton_steps: int = 500
+    binned_newton_steps: int = 2000
     screen: int = 3
     screen_steps: int = 30
     spike_weight: float = 0.01
@@ -128,6 +134,9 @@ class FittedModel:
     likelihood : {"exact", "intervals"}, default "exact"
         Which likelihood was maximised: of exact values (densities), or of
         intervals (probabilities of ``[a, b)``, :mod:`.grouped`).
+    suspect_values : tuple of float
+        When the model collapsed onto values far outside the rest of the
+        sample, those values (see :mod:`.outliers`); empty otherwise.
     """
 
     mixture: Mixture
@@ -147,6 +156,7 @@ class FittedModel:
     collapsed: bool
     notes: tuple = ()
     likelihood: str = "exact"
+    suspect_values: tuple = ()
 
     @property
     def min_weight(self) -> float:
@@ -222,8 +232,23 @@ def fit_model(sample: Sample, k: int, widths: str, rng: np.random.Generator,
     if agreeing is None:
         agreeing = _count_agreeing(result.loglik, best, data.n, settings.agree_tol)
     restarts = int(result.loglik.size) if used == 0 else used
+    suspects = _suspect_values(data, sample, result, best, settings) if degenerate[best] else ()
     return _finish(data, sample, result, best, k, widths, agreeing, restarts,
-                   collapsed=bool(degenerate[best]))
+                   collapsed=bool(degenerate[best]), suspects=suspects)
+
+
+def _suspect_values(data, sample, result, best, settings):
+    """Values beyond the far-out fences that the collapsed components of ``best`` hold."""
+    weights, variances, nk = result.weights[best], result.variances[best], result.nk[best]
+    culprits = _degenerate_components(weights, variances, nk, data.var_floor, settings)
+    if not culprits.any() or not np.all(np.isfinite(variances)):
+        return ()
+    held = held_values(sample.values, weights, data.center + data.scale * result.means[best],
+                       data.scale * np.sqrt(variances), culprits)
+    lower, upper = far_out_fences(sample.values, sample.counts)
+    if held.size == 0 or np.any((held >= lower) & (held <= upper)):
+        return ()
+    return tuple(float(v) for v in held)
 
 
 def _screened_starts(x, c, k, shared, rng, var_floor, settings, cancel):
@@ -246,9 +271,10 @@ def _screened_starts(x, c, k, shared, rng, var_floor, settings, cancel):
     return short.weights[keep], short.means[keep], short.variances[keep]
 
 
-def _run(x, c, data, k, shared, starts, settings, cancel, var_floor=None):
+def _run(x, c, data, k, shared, starts, settings, cancel, var_floor=None, max_steps=None):
     """EM on every start side by side, then certified Newton steps on each."""
     floor = data.var_floor if var_floor is None else var_floor
+    max_steps = settings.newton_steps if max_steps is None else max_steps
     w0, m0, v0 = starts
     if shared:
         v0 = np.repeat(np.average(v0, axis=1, weights=w0)[:, None], k, axis=1)
@@ -262,7 +288,7 @@ def _run(x, c, data, k, shared, starts, settings, cancel, var_floor=None):
             continue  # a dead component: degenerate, nothing to certify
         end = newton_polish(x, c, result.weights[i], result.means[i], result.variances[i],
                             shared=shared, var_floor=floor, tol_abs=settings.tol * n,
-                            max_steps=settings.newton_steps, cancel=cancel)
+                            max_steps=max_steps, cancel=cancel)
         if end.loglik >= result.loglik[i]:
             result.weights[i], result.means[i], result.variances[i] = (
                 end.weights, end.means, end.variances)
@@ -291,10 +317,17 @@ def _fit_binned_then_polish(data, k, shared, rng, settings, cancel):
 
 
 def _distinct_candidates(loglik, degenerate, n, settings):
+    """Up to ``settings.polish`` restarts with distinct log-likelihoods, best first.
+
+    Degenerate restarts are polished only when no restart is credible: the
+    collapse rule sets them aside anyway, and on the raw values Newton steps
+    would chase their unbounded likelihood (a spike narrowing onto a few
+    values) to the step limit.
+    """
     order = np.lexsort((-loglik, degenerate))
     picks = []
     for i in order:
-        if not np.isfinite(loglik[i]):
+        if not np.isfinite(loglik[i]) or (picks and degenerate[i]):
             continue
         if all(abs(loglik[i] - loglik[j]) > settings.agree_tol * n for j in picks):
             picks.append(int(i))
@@ -322,10 +355,16 @@ def degenerate_fits(result, var_floor, settings):
     -------
     ndarray of bool, shape (r,)
     """
-    at_floor = np.any(result.variances <= var_floor * (1.0 + 1e-6), axis=1)
-    too_small = np.any(result.nk < settings.min_count, axis=1)
-    return at_floor | too_small | has_spike(result.weights, np.sqrt(result.variances), settings) \
+    return np.any(_degenerate_components(result.weights, result.variances, result.nk,
+                                         var_floor, settings), axis=-1) \
         | ~np.isfinite(result.loglik)
+
+
+def _degenerate_components(weights, variances, nk, var_floor, settings):
+    """Components, shape (..., k), that trigger the collapse rule: floor, too few, spike."""
+    at_floor = variances <= var_floor * (1.0 + 1e-6)
+    too_small = nk < settings.min_count
+    return at_floor | too_small | _spikes(weights, np.sqrt(variances), settings)
 
 
 def has_spike(weights, sds, settings: "FitSettings"):
@@ -346,9 +385,12 @@ def has_spike(weights, sds, settings: "FitSettings"):
     -------
     ndarray of bool, shape (...)
     """
+    return np.any(_spikes(weights, sds, settings), axis=-1)
+
+
+def _spikes(weights, sds, settings):
     widest = sds.max(axis=-1, keepdims=True)
-    spike = (weights < settings.spike_weight) & (sds < settings.spike_sd_ratio * widest)
-    return np.any(spike, axis=-1)
+    return (weights < settings.spike_weight) & (sds < settings.spike_sd_ratio * widest)
 
 
 def _best_index(loglik, degenerate):
@@ -362,7 +404,7 @@ def _count_agreeing(loglik, best, n, tol):
     return int(np.sum(np.abs(loglik - loglik[best]) <= tol * n + 1e-9))
 
 
-def _finish(data, sample, result, best, k, widths, agreeing, restarts, collapsed):
+def _finish(data, sample, result, best, k, widths, agreeing, restarts, collapsed, suspects=()):
     scale = data.scale
     mixture = Mixture(weights=result.weights[best],
                       means=data.center + scale * result.means[best],
@@ -378,13 +420,16 @@ def _finish(data, sample, result, best, k, widths, agreeing, restarts, collapsed
     if collapsed:
         notes.append("Every restart ended with a component squeezed onto a few values "
                      "(a spurious maximum); this model is not a credible description.")
+    if suspects:
+        notes.append(outlier_note(suspects))
     return model_with_criteria(mixture, k, widths, loglik, data.n, entropy, converged=converged,
                                iterations=int(result.iterations[best]), restarts=restarts,
-                               agreeing=agreeing, collapsed=collapsed, notes=notes)
+                               agreeing=agreeing, collapsed=collapsed, notes=notes,
+                               suspects=suspects)
 
 
 def model_with_criteria(mixture, k, widths, loglik, n, entropy, *, converged, iterations, restarts,
-                        agreeing, collapsed, notes, likelihood="exact") -> FittedModel:
+                        agreeing, collapsed, notes, likelihood="exact", suspects=()) -> FittedModel:
     """A :class:`FittedModel` with its parameter count, BIC, AIC and ICL computed."""
     n_params = criteria.n_parameters(k, widths)
     bic = criteria.bic(loglik, n_params, n)
@@ -392,4 +437,5 @@ def model_with_criteria(mixture, k, widths, loglik, n, entropy, *, converged, it
                        n_params=n_params, bic=bic, aic=criteria.aic(loglik, n_params),
                        icl=criteria.icl(bic, entropy), entropy=entropy, converged=converged,
                        iterations=iterations, restarts=restarts, restarts_agreeing=agreeing,
-                       collapsed=collapsed, notes=tuple(notes), likelihood=likelihood)
+                       collapsed=collapsed, notes=tuple(notes), likelihood=likelihood,
+                       suspect_values=tuple(suspects))

@@ -23,10 +23,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["NewtonOutcome", "loglik_derivatives", "newton_polish"]
+__all__ = ["NewtonOutcome", "loglik_derivatives", "newton_polish", "trust_region_step"]
 
 _HALF_LOG_2PI = 0.5 * float(np.log(2.0 * np.pi))
 _CHUNK_ROWS = 1 << 16
+# Trust-region radius (standard units of the unconstrained parameters).
+_RADIUS_START = 1.0
+_RADIUS_MAX = 4.0
 
 
 @dataclass(frozen=True)
@@ -168,6 +171,12 @@ def newton_polish(x, c, weights, means, variances, *, shared, var_floor, tol_abs
                   max_steps=200, cancel=None) -> NewtonOutcome:
     """Climb to a local maximum with trust-region Newton steps.
 
+    Each step solves the trust-region subproblem exactly in the eigenbasis of
+    the Hessian (Moré & Sorensen 1983; Nocedal & Wright 2006, Algorithm 4.3)
+    and the radius follows the ratio of the actual to the predicted gain
+    (Nocedal & Wright 2006, Algorithm 4.1). Only ascent is accepted, so the
+    log-likelihood never decreases.
+
     Parameters
     ----------
     x, c : ndarray, shape (n,)
@@ -179,6 +188,7 @@ def newton_polish(x, c, weights, means, variances, *, shared, var_floor, tol_abs
     tol_abs : float
         Stop when the certified remaining gain is below this.
     max_steps : int, default 200
+        Cap on trial points (accepted or not).
     cancel : object with ``is_set()``, optional
         Checked every step; the current point is returned unconverged when set.
 
@@ -196,48 +206,101 @@ def newton_polish(x, c, weights, means, variances, *, shared, var_floor, tol_abs
     tau_floor = 0.5 * np.log(var_floor) if var_floor > 0 else -np.inf
     tau_slice = slice(2 * k - 1, None)
     ll, grad, hess, nk = loglik_derivatives(x, c, w, means, sd, shared)
-    shift = 0.0
+    radius = _RADIUS_START
     converged = False
     steps = 0
-    for steps in range(1, max_steps + 1):
+    decompose = True
+    while steps < max_steps:
         if cancel is not None and cancel.is_set():
             break
-        eigval, eigvec = np.linalg.eigh(-hess)  # maximising: want -H positive definite
-        if not np.all(np.isfinite(eigval)):
-            break
-        g_rot = eigvec.T @ grad
-        floor_eig = 1e-12 * max(1.0, np.abs(eigval).max())
-        if eigval.min() > floor_eig:
-            decrement = 0.5 * float(np.sum(g_rot**2 / eigval))
-            if decrement <= tol_abs:
+        if decompose:
+            eigval, eigvec = np.linalg.eigh(-hess)  # maximising: want -H positive definite
+            if not np.all(np.isfinite(eigval)):
+                break
+            g_rot = eigvec.T @ grad
+            floor_eig = 1e-12 * max(1.0, np.abs(eigval).max())
+            if eigval.min() > floor_eig:
+                decrement = 0.5 * float(np.sum(g_rot**2 / eigval))
+                if decrement <= tol_abs:
+                    converged = True
+                    break
+        s_rot = trust_region_step(eigval, g_rot, radius, floor_eig)
+        predicted = float(g_rot @ s_rot - 0.5 * np.sum(eigval * s_rot**2))
+        length = float(np.sqrt(s_rot @ s_rot))
+        trial = theta + eigvec @ s_rot
+        trial[tau_slice] = np.maximum(trial[tau_slice], tau_floor)
+        w_t, mu_t, sd_t = _split(trial, k, shared)
+        steps += 1
+        ll_t, grad_t, hess_t, nk_t = loglik_derivatives(x, c, w_t, mu_t, sd_t, shared)
+        accepted = bool(np.isfinite(ll_t) and ll_t >= ll and np.all(np.isfinite(hess_t)))
+        ratio = (ll_t - ll) / predicted if accepted and predicted > 0 else (1.0 if accepted else -1.0)
+        if ratio < 0.25:
+            radius = 0.25 * length
+        elif ratio > 0.75 and length >= 0.99 * radius:
+            radius = min(2.0 * radius, _RADIUS_MAX)
+        decompose = accepted
+        if accepted:
+            gain = ll_t - ll
+            theta, ll, grad, hess, nk = trial, ll_t, grad_t, hess_t, nk_t
+            if gain <= 1e-3 * tol_abs and np.sqrt(grad @ grad) <= 1e-8 * max(1.0, abs(ll)):
                 converged = True
                 break
-        improved = False
-        for _ in range(40):
-            lam = max(shift, floor_eig - eigval.min(), 0.0)
-            step = eigvec @ (g_rot / (eigval + lam + floor_eig))
-            length = np.sqrt(step @ step)
-            if length > 2.0:  # keep each step within a sensible region (standard units)
-                step *= 2.0 / length
-            trial = theta + step
-            trial[tau_slice] = np.maximum(trial[tau_slice], tau_floor)
-            w_t, mu_t, sd_t = _split(trial, k, shared)
-            ll_t = loglik_derivatives(x, c, w_t, mu_t, sd_t, shared, order=0)[0]
-            if np.isfinite(ll_t) and ll_t >= ll:
-                gain = ll_t - ll
-                ll, grad, hess, nk = loglik_derivatives(x, c, w_t, mu_t, sd_t, shared)
-                theta = trial
-                shift = shift / 4.0 if shift > 1e-12 else 0.0
-                improved = True
-                break
-            shift = max(4.0 * shift, 1e-6 * max(1.0, np.abs(eigval).max()))
-        if not improved:
+        if radius < 1e-12:
             # No ascent is possible at machine precision: a maximum up to rounding.
             converged = bool(np.sqrt(grad @ grad) <= 1e-6 * max(1.0, abs(ll)))
-            break
-        if gain <= 1e-3 * tol_abs and np.sqrt(grad @ grad) <= 1e-8 * max(1.0, abs(ll)):
-            converged = True
             break
     w, mu, sd = _split(theta, k, shared)
     return NewtonOutcome(weights=w, means=mu.copy(), variances=sd**2, loglik=ll,
                          converged=converged, steps=steps, nk=nk)
+
+
+def trust_region_step(eigval, g_rot, radius, floor_eig):
+    """Maximiser of the quadratic model within ``radius``, in the Hessian's eigenbasis.
+
+    Maximises ``g's - s'As/2`` (``A = -H`` with eigenvalues ``eigval``) over
+    ``|s| <= radius``: ``s = g / (eigval + lam)`` with the smallest shift
+    ``lam >= 0`` that makes ``A + lam I`` positive definite and the step fit,
+    found by Newton's method on the secular equation ``1/radius - 1/|s(lam)| = 0``,
+    which is concave in ``lam`` so the iterates approach the root from below
+    (Moré & Sorensen 1983). When the gradient has no component along a
+    direction of negative curvature (the "hard case") the step is completed
+    along that direction to the boundary, so saddle points are left.
+
+    Parameters
+    ----------
+    eigval : ndarray, shape (p,)
+        Eigenvalues of ``-H``, ascending.
+    g_rot : ndarray, shape (p,)
+        Gradient in the eigenbasis.
+    radius : float
+    floor_eig : float
+        Smallest eigenvalue treated as positive.
+
+    Returns
+    -------
+    ndarray, shape (p,)
+        The step in the eigenbasis.
+    """
+    lam = max(0.0, floor_eig - eigval[0])
+    den = eigval + lam
+    den = np.where(den > floor_eig, den, floor_eig)
+    step = g_rot / den
+    norm = float(np.sqrt(step @ step))
+    if norm > radius > 0.0:
+        for _ in range(40):
+            cube = float(np.sum(g_rot**2 / den**3))
+            if not cube > 0.0:
+                break
+            lam += (norm / radius - 1.0) * norm * norm / cube
+            den = eigval + lam
+            step = g_rot / den
+            norm = float(np.sqrt(step @ step))
+            if norm <= radius * (1.0 + 1e-3):
+                break
+    if norm > radius:
+        step *= radius / norm
+    elif eigval[0] < floor_eig and norm < radius:
+        extra = np.zeros_like(step)
+        extra[0] = np.sqrt(radius * radius - norm * norm) * (1.0 if g_rot[0] >= 0 else -1.0)
+        step = step + extra
+    return step

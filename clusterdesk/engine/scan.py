@@ -13,6 +13,7 @@ import numpy as np
 
 from . import criteria
 from .fitting import FitSettings, FittedModel, fit_model
+from .outliers import outlier_note
 from .treatment import Treatment, resolve_treatment
 from .validation import check_component_range, check_seed, check_widths
 from ..errors import Cancelled, InputError
@@ -85,6 +86,11 @@ class ScanResult:
     seed : int
     treatment : Treatment or None
         Exact values or intervals, and why (see :mod:`.treatment`).
+    notes : tuple of str
+        Plain-words remarks on the scan as a whole, e.g. values far outside
+        the rest of the sample on which models collapsed (:mod:`.outliers`).
+    suspect_values : tuple of float
+        Those values, ascending; empty when there are none.
     """
 
     models: tuple
@@ -92,6 +98,8 @@ class ScanResult:
     n: float
     seed: int
     treatment: Treatment | None = None
+    notes: tuple = ()
+    suspect_values: tuple = ()
 
     @property
     def best(self) -> FittedModel:
@@ -165,8 +173,10 @@ def scan_models(values, *, counts=None, kmin=1, kmax=6, widths="separate", resta
         models.append(fit_model(sample, k, w, model_rng(seed, k, w), settings, cancel))
         if progress is not None:
             progress(done, len(jobs))
+    suspects = tuple(sorted({v for m in models for v in m.suspect_values}))
+    notes = (outlier_note(suspects),) if suspects else ()
     return ScanResult(models=tuple(models), ranking=rank_models(models), n=sample.n, seed=int(seed),
-                      treatment=used)
+                      treatment=used, notes=notes, suspect_values=suspects)
 
 
 def _with_restarts(settings, restarts):

@@ -122,7 +122,7 @@ def _model_section(analysis) -> str:
              f'{_fmt(chosen.converged)}; {chosen.restarts_agreeing} of {chosen.restarts} restarts '
              f'reached its log-likelihood {_fmt(chosen.loglik)}.</p>',
              _table(table.header, table.rows, text_columns=(1,))]
-    parts += [f'<p class="muted">Note: {html.escape(n)}</p>' for n in chosen.notes]
+    parts += [f'<p class="muted">Note: {html.escape(n)}</p>' for n in analysis.fit_notes]
     intervals = getattr(analysis, "intervals", None)
     if intervals is not None:
         parts.append(_intervals_html(intervals))

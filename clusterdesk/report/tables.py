@@ -166,6 +166,7 @@ def summary_dict(analysis) -> dict:
         "treatment": treatment_dict(scan),
         "best": {"components": scan.best.k, "widths": scan.best.widths,
                  "evidence_over_runner_up": scan.evidence},
+        "scan_notes": list(scan.notes),
         "chosen": {"components": chosen.k, "widths": chosen.widths, "log_likelihood": chosen.loglik,
                    "bic": chosen.bic, "aic": chosen.aic, "icl": chosen.icl,
                    "converged": chosen.converged, "restarts_agreeing": chosen.restarts_agreeing,

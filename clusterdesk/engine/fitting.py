@@ -299,12 +299,21 @@ def _run(x, c, data, k, shared, starts, settings, cancel, var_floor=None, max_st
 
 
 def _fit_binned_then_polish(data, k, shared, rng, settings, cancel):
-    # The histogram stage fits the bins by the likelihood of intervals (.grouped).
-    from .grouped import fit_bins, histogram_bins
+    # The histogram stage only finds candidates: the raw values polish them, so
+    # its bins (aligned to the values' grid, .grouped.histogram_bins) are fitted
+    # by their midpoints with Newton walks, which reach better and more distinct
+    # optima sooner than interval EM at a loose tolerance (measured on the scan
+    # benchmark's data: 4.7 s against 15.8 s for k = 1..8, higher log-likelihoods
+    # for k = 5..8).  The bins' floor keeps a component wider than one bin.
+    from .grouped import histogram_bins
 
     lower, upper, cb = histogram_bins(data.x, data.c, settings.bins, data.step)
-    floor_b = data.var_floor
-    binned = fit_bins(lower, upper, cb, k, shared, rng, floor_b, settings, cancel)
+    xb = 0.5 * (lower + upper)
+    width = float(np.max(upper - lower))
+    floor_b = max(data.var_floor, width * width)
+    starts = _screened_starts(xb, cb, k, shared, rng, floor_b, settings, cancel)
+    binned = _run(xb, cb, data, k, shared, starts, settings, cancel, var_floor=floor_b,
+                  max_steps=settings.binned_newton_steps)
     degenerate = degenerate_fits(binned, floor_b, settings)
     best = _best_index(binned.loglik, degenerate)
     agreeing = _count_agreeing(binned.loglik, best, data.n, settings.agree_tol)

@@ -98,6 +98,8 @@ class DataPanel(QGroupBox):
         self.resolution = QLineEdit()
         self.resolution.setToolTip("The recording step (or class width) on the original scale; leave "
                                    "empty to use the one detected in the values.")
+        self.values_as.currentIndexChanged.connect(self._show_cleaning)
+        self.resolution.textChanged.connect(self._show_cleaning)
         self.cleaning = QLabel("")
         self.cleaning.setWordWrap(True)
         self.cleaning.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
@@ -175,6 +177,13 @@ class DataPanel(QGroupBox):
         """Show the treatment and resolution of some settings (e.g. a reopened analysis)."""
         self.values_as.setCurrentIndex(max(self.values_as.findData(settings.treatment), 0))
         self.resolution.setText("" if settings.resolution is None else f"{settings.resolution:g}")
+        self._show_cleaning()
+
+    def _show_cleaning(self, *_) -> None:
+        """The cleaning summary, saying what becomes of limit rows under the treatment shown."""
+        m = getattr(self, "_measurements", None)
+        if m is not None:
+            self.cleaning.setText(cleaning_words(m, **self.treatment_settings()))
 
     def _fill(self, m, data, sheets, source_label) -> None:
         self.setEnabled(m is not None)
@@ -226,7 +235,8 @@ class DataPanel(QGroupBox):
         self.high.setText("" if m.high is None else f"{m.high:g}")
         self.low.setStyleSheet("")
         self.high.setStyleSheet("")
-        self.cleaning.setText(cleaning_words(m))
+        self._measurements = m
+        self._show_cleaning()
         self.excluded_button.setEnabled(m.summary.rows_read > m.summary.rows_kept)
 
     # ---------------------------------------------------------------- read
@@ -298,8 +308,14 @@ def _format_words(m) -> str:
     return "; ".join(words)
 
 
-def cleaning_words(m) -> str:
-    """The cleaning summary as shown under the column chooser (rich text)."""
+def cleaning_words(m, treatment: str = "auto", resolution: float | None = None) -> str:
+    """The cleaning summary as shown under the column chooser (rich text).
+
+    ``treatment`` and ``resolution`` are the settings shown beside it: rows at
+    a detection or reporting limit enter the fit as censored readings unless
+    the values are taken as exact or no resolution is known
+    (:meth:`~clusterdesk.analysis.Analysis.likelihood_input`).
+    """
     s = m.summary
     lines = [f"<b>{s.rows_kept:,}</b> of {s.rows_read:,} rows kept"]
     if s.total_count is not None:
@@ -311,9 +327,14 @@ def cleaning_words(m) -> str:
     on = "" if m.scale == "linear" else " (original scale)"
     lines.append(f"resolution {m.resolution:g}{on}" if m.resolution else "no recording grid (continuous values)")
     limits = [w for w in s.excluded if w in ("below detection limit", "above reporting limit")]
-    if limits:
-        lines.append("<i>Rows at a detection or reporting limit are left out, which can distort "
-                     "the lowest or highest group.</i>")
+    censored = treatment != "exact" and (resolution or m.resolution) is not None
+    if limits and censored:
+        lines.append("<i>Rows at a detection or reporting limit enter the fit as censored readings "
+                     "(the likelihood of intervals); they are not drawn in the histogram.</i>")
+    elif limits:
+        lines.append("<i>Rows at a detection or reporting limit are left out of this fit, which can "
+                     "distort the lowest or highest group; values as intervals would keep them "
+                     "as censored readings.</i>")
     return "<br>".join(lines)
 
 

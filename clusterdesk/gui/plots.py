@@ -185,10 +185,15 @@ class DistributionView(PlotView):
             step = m.resolution if m.scale == "linear" else None
             self.edges = bin_edges(values, counts, rule=self.rule.currentText(), bins=self.bins.value(),
                                    grid_step=step)
-            self.heights = weighted_histogram(values, counts, self.edges)
-            self._bars.setData(self.edges, self.heights)
             self._bars_key = key
             _style_axes(self.plot, label, "density")
+        # With readings beyond a detection limit in the fit (censored), the mixture is the
+        # density of the whole sample: the bars of the kept values hold only their share of it.
+        kept = float(np.sum(counts)) if counts is not None else float(values.size)
+        fitted_n = analysis.scan.n if analysis.scan is not None else kept
+        share = kept / fitted_n if fitted_n > kept else 1.0
+        self.heights = weighted_histogram(values, counts, self.edges) * share
+        self._bars.setData(self.edges, self.heights)
         self._bars.show()
         self.curves = {"histogram": self._bars}
         if analysis.scan is None:
@@ -198,7 +203,8 @@ class DistributionView(PlotView):
         self._show_model(analysis.chosen, m.n)
         which = "best by BIC" if analysis.choice is None else "your choice"
         model = analysis.chosen
-        self.heading.setText(f"{label}: {values.size:,} kept values; "
+        censored = f" and {fitted_n - kept:,.0f} readings beyond a limit (in the fit, not drawn)" if share < 1 else ""
+        self.heading.setText(f"{label}: {values.size:,} kept values{censored}; "
                              f"{model_words(model.k, model.widths)} ({which}).")
 
     def _show_model(self, model, n) -> None:

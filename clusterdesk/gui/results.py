@@ -34,6 +34,31 @@ def caution_label(parent=None, *, short: bool = False) -> QLabel:
     return label
 
 
+class WrappedLabel(QLabel):
+    """A word-wrapped label that asks its layout for the height its text needs at its width.
+
+    A wrapped QLabel in a box beside a stretching table is otherwise given the
+    height of one line, and its second line (the likelihood used) is cut off.
+    """
+
+    def __init__(self, text: str = "", parent=None):
+        super().__init__(text, parent)
+        self.setWordWrap(True)
+
+    def setText(self, text: str) -> None:  # noqa: N802 (Qt's name)
+        super().setText(text)
+        self._fit_height()
+
+    def resizeEvent(self, event) -> None:  # noqa: N802 (Qt's name)
+        super().resizeEvent(event)
+        self._fit_height()
+
+    def _fit_height(self) -> None:
+        needed = self.heightForWidth(max(self.width(), 1))
+        if needed > 0 and needed != self.minimumHeight():
+            self.setMinimumHeight(needed)
+
+
 class RankingPanel(QGroupBox):
     """The ranking table; selecting a row chooses that model.
 
@@ -55,8 +80,7 @@ class RankingPanel(QGroupBox):
         self.view.setSortingEnabled(True)
         self.view.setSelectionMode(self.view.SelectionMode.SingleSelection)
         self.view.sortByColumn(3, Qt.SortOrder.AscendingOrder)
-        self.summary = QLabel("Fit models to rank them.")
-        self.summary.setWordWrap(True)
+        self.summary = WrappedLabel("Fit models to rank them.")
         layout = QVBoxLayout(self)
         layout.addWidget(self.summary)
         layout.addWidget(self.view, 1)

@@ -340,8 +340,10 @@ class Analysis:
         model = self.chosen if model is None else model
         return goodness_of_fit(model.mixture, values, counts)
 
-    def classification(self, model: FittedModel | None = None):
+    def classification(self, model: FittedModel | None = None, *, posterior: np.ndarray | None = None):
         """Rows assigned to components, confident share and misclassification rates.
+
+        ``posterior`` (n_kept, k), when given, is ``self.posterior(model)`` already computed.
 
         Returns
         -------
@@ -352,7 +354,9 @@ class Analysis:
 
         values, counts = self.fit_input()
         model = self.chosen if model is None else model
-        return classification_summary(model.mixture, values, counts, posterior=self.posterior(model))
+        if posterior is None:
+            posterior = self.posterior(model)
+        return classification_summary(model.mixture, values, counts, posterior=posterior)
 
     def posterior(self, model: FittedModel | None = None) -> np.ndarray:
         """Posterior probabilities of the kept values, shape (n_kept, k), in file order.
@@ -375,8 +379,10 @@ class Analysis:
         return interval_posterior(lower, upper, model.mixture)
 
     # ------------------------------------------------------------ assignments
-    def assignments(self):
+    def assignments(self, *, posterior: np.ndarray | None = None):
         """Component and posterior probabilities for every input row.
+
+        ``posterior`` (n_kept, k), when given, is ``self.posterior()`` already computed.
 
         Returns
         -------
@@ -389,7 +395,7 @@ class Analysis:
         m = self._need_measurements()
         model = self.chosen
         rows = m.rows
-        post_kept = self.posterior(model)
+        post_kept = self.posterior(model) if posterior is None else posterior
         k = model.k
         posterior = np.full((len(rows), k), np.nan)
         kept = rows.kept

@@ -397,13 +397,18 @@ class Analysis:
         rows = m.rows
         post_kept = self.posterior(model) if posterior is None else posterior
         k = model.k
-        posterior = np.full((len(rows), k), np.nan)
         kept = rows.kept
-        posterior[kept] = post_kept[rows.position[kept]]
+        if kept.all():  # every row kept, in file order: no (n, k) copies of a long column
+            posterior = kept_post = post_kept
+        else:
+            kept_post = post_kept[rows.position[kept]]
+            posterior = np.full((len(rows), k), np.nan)
+            posterior[kept] = kept_post
+        best = np.argmax(kept_post, axis=1)
         component = np.zeros(len(rows), dtype=np.int64)
-        component[kept] = np.argmax(posterior[kept], axis=1) + 1
+        component[kept] = best + 1
         max_post = np.full(len(rows), np.nan)
-        max_post[kept] = posterior[kept].max(axis=1)
+        max_post[kept] = np.take_along_axis(kept_post, best[:, None], axis=1)[:, 0]
         words = np.array([rows.reason_words(code) for code in range(int(rows.reason.max(initial=0)) + 1)],
                          dtype=object)
         return {"line": rows.line, "value": rows.value, "kept": kept,

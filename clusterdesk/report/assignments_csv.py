@@ -107,19 +107,30 @@ def _shared_texts(a: dict, component_cells: np.ndarray, text_cells: _TextCells):
         return None
     del distinct
     first_rows = kept[first]
-    posterior = a["posterior"]
-    same = (np.array_equal(np.ascontiguousarray(posterior[kept]).view(np.int64),
-                           np.ascontiguousarray(posterior[first_rows][inverse]).view(np.int64))
-            and np.array_equal(a["component"][kept], a["component"][first_rows][inverse])
-            and np.array_equal(a["max_posterior"][kept].view(np.int64),
-                               a["max_posterior"][first_rows][inverse].view(np.int64))
-            and bool(np.all(a["reason"][kept] == a["reason"][kept[0]])))
-    if not same:
+    if not _rows_follow_their_value(a, kept, first_rows, inverse):
         return None
     which = np.full(a["kept"].size, -1, dtype=np.int64)
     which[kept] = inverse
     texts = np.array(_cells_text(a, first_rows, component_cells, text_cells), dtype=object)
     return texts, which
+
+
+def _same_bits(column: np.ndarray, rows: np.ndarray, source: np.ndarray) -> bool:
+    """Whether ``column[rows]`` and ``column[source]`` hold the same floats, bit for bit (NaN and -0.0 too)."""
+    return np.array_equal(np.ascontiguousarray(column[rows]).view(np.int64),
+                          np.ascontiguousarray(column[source]).view(np.int64))
+
+
+def _rows_follow_their_value(a: dict, kept, first_rows, inverse, chunk: int = 1 << 20) -> bool:
+    """Whether every kept row has the posteriors, component, largest posterior and reason of its value's first row."""
+    for start in range(0, kept.size, chunk):
+        rows = kept[start:start + chunk]
+        source = first_rows[inverse[start:start + chunk]]
+        if not (_same_bits(a["posterior"], rows, source) and _same_bits(a["max_posterior"], rows, source)
+                and np.array_equal(a["component"][rows], a["component"][source])
+                and bool(np.all(a["reason"][rows] == a["reason"][source]))):
+            return False
+    return True
 
 
 def _block_text(a: dict, part: slice, component_cells: np.ndarray, text_cells: _TextCells, shared) -> str:

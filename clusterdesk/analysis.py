@@ -340,8 +340,10 @@ class Analysis:
         model = self.chosen if model is None else model
         return goodness_of_fit(model.mixture, values, counts)
 
-    def classification(self, model: FittedModel | None = None):
+    def classification(self, model: FittedModel | None = None, *, posterior: np.ndarray | None = None):
         """Rows assigned to components, confident share and misclassification rates.
+
+        ``posterior`` (n_kept, k), when given, is ``self.posterior(model)`` already computed.
 
         Returns
         -------
@@ -352,7 +354,9 @@ class Analysis:
 
         values, counts = self.fit_input()
         model = self.chosen if model is None else model
-        return classification_summary(model.mixture, values, counts, posterior=self.posterior(model))
+        if posterior is None:
+            posterior = self.posterior(model)
+        return classification_summary(model.mixture, values, counts, posterior=posterior)
 
     def posterior(self, model: FittedModel | None = None) -> np.ndarray:
         """Posterior probabilities of the kept values, shape (n_kept, k), in file order.
@@ -375,8 +379,10 @@ class Analysis:
         return interval_posterior(lower, upper, model.mixture)
 
     # ------------------------------------------------------------ assignments
-    def assignments(self):
+    def assignments(self, *, posterior: np.ndarray | None = None):
         """Component and posterior probabilities for every input row.
+
+        ``posterior`` (n_kept, k), when given, is ``self.posterior()`` already computed.
 
         Returns
         -------
@@ -389,15 +395,20 @@ class Analysis:
         m = self._need_measurements()
         model = self.chosen
         rows = m.rows
-        post_kept = self.posterior(model)
+        post_kept = self.posterior(model) if posterior is None else posterior
         k = model.k
-        posterior = np.full((len(rows), k), np.nan)
         kept = rows.kept
-        posterior[kept] = post_kept[rows.position[kept]]
+        if kept.all():  # every row kept, in file order: no (n, k) copies of a long column
+            posterior = kept_post = post_kept
+        else:
+            kept_post = post_kept[rows.position[kept]]
+            posterior = np.full((len(rows), k), np.nan)
+            posterior[kept] = kept_post
+        best = np.argmax(kept_post, axis=1)
         component = np.zeros(len(rows), dtype=np.int64)
-        component[kept] = np.argmax(posterior[kept], axis=1) + 1
+        component[kept] = best + 1
         max_post = np.full(len(rows), np.nan)
-        max_post[kept] = posterior[kept].max(axis=1)
+        max_post[kept] = np.take_along_axis(kept_post, best[:, None], axis=1)[:, 0]
         words = np.array([rows.reason_words(code) for code in range(int(rows.reason.max(initial=0)) + 1)],
                          dtype=object)
         return {"line": rows.line, "value": rows.value, "kept": kept,

@@ -194,7 +194,8 @@ def classification_summary(mixture: Mixture, values, counts=None, *,
     if not 0.0 < float(threshold) <= 1.0:
         raise InputError(f"threshold must be a posterior probability in (0, 1]; got {threshold!r}.")
     x, c = _rows(values, counts)
-    posterior = mixture.posterior(x) if posterior is None else np.array(posterior, dtype=np.float64)
+    # A read-only view of the caller's posteriors (no copy of a long (n, k) array; their flags untouched).
+    posterior = mixture.posterior(x) if posterior is None else np.asarray(posterior, dtype=np.float64).view()
     assigned = np.argmax(posterior, axis=1)
     confident = posterior[np.arange(x.size), assigned] >= threshold
     rates = misclassification_rates(mixture)

@@ -25,6 +25,8 @@ from ..errors import InputError
 __all__ = ["Mixture", "cut_point_between"]
 
 _LOG_SQRT_2PI = 0.5 * np.log(2.0 * np.pi)
+#: Rows whose posteriors are computed together (bounds the temporaries of long columns).
+_POSTERIOR_ROWS = 1 << 18
 _EPS = np.finfo(np.float64).eps
 _WEIGHT_SUM_TOLERANCE = 1e-6
 _QUANTILE_MAX_ITERATIONS = 200
@@ -333,6 +335,15 @@ class Mixture:
         x = np.asarray(x, dtype=np.float64)
         if np.any(np.isnan(x)):
             raise InputError("Posterior probabilities need numbers; remove missing (NaN) values.")
+        if x.ndim != 1 or x.size <= _POSTERIOR_ROWS:
+            return self._posterior_rows(x)
+        # Block by block: the same numbers row for row, without (n, k) temporaries.
+        result = np.empty((x.size, self.k))
+        for start in range(0, x.size, _POSTERIOR_ROWS):
+            result[start:start + _POSTERIOR_ROWS] = self._posterior_rows(x[start:start + _POSTERIOR_ROWS])
+        return result
+
+    def _posterior_rows(self, x: np.ndarray) -> np.ndarray:
         log_components = self._log_components(x)
         total = logsumexp(log_components, axis=-1, keepdims=True)
         beyond = ~np.isfinite(total[..., 0])  # so far out that every log density overflowed

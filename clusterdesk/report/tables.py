@@ -13,6 +13,7 @@ import numpy as np
 
 from .._version import __version__
 from ..atomic import write_text_atomic
+from .assignments_csv import assignment_header, write_assignments_csv
 from .csvfile import write_csv
 
 __all__ = ["Table", "ranking_table", "treatment_words", "treatment_dict", "components_table", "assignment_table", "summary_dict",
@@ -59,7 +60,7 @@ def treatment_dict(scan) -> dict:
     return {**scan.treatment.as_dict(), "description": treatment_words(scan)}
 
 
-def components_table(analysis) -> Table:
+def components_table(analysis, *, posterior=None) -> Table:
     """One row per component of the chosen model.
 
     Weight, mean, standard deviation and the cut point to the next component
@@ -68,11 +69,12 @@ def components_table(analysis) -> Table:
     expected misclassification rate; bootstrap intervals and standard errors
     when they have been estimated; under a log scale the geometric mean, the
     multiplicative spread and the cut point on the original scale.
+    ``posterior`` (n_kept, k), when given, is ``analysis.posterior()`` computed once by the caller.
     """
     model = analysis.chosen
     mix = model.mixture
     scale = analysis.measurements.scale
-    summary = analysis.classification()
+    summary = analysis.classification(posterior=posterior)
     cuts = np.append(mix.cut_points(), np.nan)
     boot = analysis.intervals
     header = ["component", "scale", "weight", "mean", "sd", "count_assigned",
@@ -125,10 +127,7 @@ def _interval_cells(boot, j) -> list:
 def assignment_table(analysis) -> Table:
     """Every input row (excluded rows with their reason): value, component, posteriors."""
     a = analysis.assignments()
-    k = a["posterior"].shape[1]
-    header = ("line", "value", "status", "component", "max_posterior") + tuple(
-        f"posterior_{j + 1}" for j in range(k))
-    return Table(header, _assignment_rows(a))
+    return Table(assignment_header(a["posterior"].shape[1]), _assignment_rows(a))
 
 
 def _assignment_rows(a, block: int = 1 << 16):
@@ -142,8 +141,11 @@ def _assignment_rows(a, block: int = 1 << 16):
             yield [line, value, reason, component if kept else None, top, *posterior]
 
 
-def summary_dict(analysis) -> dict:
-    """Settings, source, cleaning, ranking head and the chosen model, as JSON types."""
+def summary_dict(analysis, *, posterior=None) -> dict:
+    """Settings, source, cleaning, ranking head and the chosen model, as JSON types.
+
+    ``posterior`` (n_kept, k), when given, is ``analysis.posterior()`` computed once by the caller.
+    """
     m = analysis.measurements
     scan = analysis.scan
     chosen = analysis.chosen
@@ -174,14 +176,14 @@ def summary_dict(analysis) -> dict:
                    "means": mix.means.tolist(), "sds": mix.sds.tolist(),
                    "cut_points": [None if np.isnan(c) else float(c) for c in mix.cut_points()],
                    "notes": list(chosen.notes)},
-        "classification": _classification_dict(analysis),
+        "classification": _classification_dict(analysis, posterior),
         "intervals": _intervals_dict(analysis.intervals),
         "caution": CAUTION,
     }
 
 
-def _classification_dict(analysis) -> dict:
-    summary = analysis.classification()
+def _classification_dict(analysis, posterior=None) -> dict:
+    summary = analysis.classification(posterior=posterior)
     return {"share_assigned_with_posterior_at_least": summary.threshold,
             "confident_share": summary.confident_share,
             "assigned_counts": summary.assigned_counts.tolist(),
@@ -205,6 +207,10 @@ def _intervals_dict(boot):
 def write_tables(analysis, folder) -> dict:
     """Write ranking.csv, components.csv, assignments.csv and summary.json into a folder.
 
+    The posterior probabilities of the chosen model are computed once for all
+    four; the assignment table is formatted a block of rows at a time
+    (:func:`clusterdesk.report.assignments_csv.write_assignments_csv`).
+
     Returns
     -------
     dict of str to Path
@@ -212,11 +218,13 @@ def write_tables(analysis, folder) -> dict:
     import json
 
     folder = Path(folder)
+    posterior = analysis.posterior()
     out = {}
     for name, table in (("ranking", ranking_table(analysis.scan)),
-                        ("components", components_table(analysis)),
-                        ("assignments", assignment_table(analysis))):
+                        ("components", components_table(analysis, posterior=posterior))):
         out[name] = write_csv(folder / f"{name}.csv", table.header, table.rows)
+    out["assignments"] = write_assignments_csv(folder / "assignments.csv",
+                                               analysis.assignments(posterior=posterior))
     out["summary"] = write_text_atomic(folder / "summary.json",
-                                       json.dumps(summary_dict(analysis), indent=2) + "\n")
+                                       json.dumps(summary_dict(analysis, posterior=posterior), indent=2) + "\n")
     return out

@@ -281,6 +281,19 @@ def test_posterior_matches_direct_computation(k, scale, offset):
     np.testing.assert_array_equal(mix.classify(x), np.argmax(direct, axis=1))
 
 
+def test_posterior_of_a_long_column_is_computed_in_blocks_with_the_same_numbers():
+    # A column longer than one block (2**18 rows), far tails and infinities included.
+    mix = Mixture([0.3, 0.4, 0.3], [0.0, 5.0, 10.0], [1.0, 3.0, 1.0])
+    x = np.random.default_rng(5).normal(5.0, 6.0, (1 << 18) + 1001)
+    x[[7, (1 << 18) + 3, -1]] = [-np.inf, np.inf, 1e150]
+    post = mix.posterior(x)
+    pieces = np.concatenate([mix.posterior(x[i:i + 1000]) for i in range(0, x.size, 1000)])
+    np.testing.assert_array_equal(post, pieces)  # row for row the same numbers, whatever the blocking
+    # Reference: softmax of log w + scipy.stats.norm.logpdf.
+    finite = np.isfinite(x) & (np.abs(x) < 1e100)
+    np.testing.assert_allclose(post[finite], reference_posterior(mix, x[finite]), atol=1e-13)
+
+
 def test_posterior_rows_sum_to_one_in_far_tails_and_at_infinity():
     mix = Mixture([0.3, 0.4, 0.3], [0.0, 5.0, 10.0], [1.0, 3.0, 1.0])
     x = np.array([-1e8, -1e4, 1e4, 1e8, 1e150])

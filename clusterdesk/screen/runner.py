@@ -190,8 +190,10 @@ def _drive(sched: Scheduler, backend, journal, progress, cancel, started: float)
     in_flight: dict = {}
     idle = list(backend.slots)
     next_id = 0
+    to_journal: list = []
     while True:
         if cancel is not None and cancel.is_set():
+            _journal_events(journal, to_journal)  # finished columns are kept for a resumed run
             return True
         for slot in list(idle):
             job = sched.next_job(slot, force=not in_flight)
@@ -201,6 +203,10 @@ def _drive(sched: Scheduler, backend, journal, progress, cancel, started: float)
             in_flight[next_id] = job
             backend.submit(slot, next_id, job)
             next_id += 1
+        # The journal is written (and synced to disk) only once the idle workers have their
+        # next jobs: a sync takes milliseconds, a worker waiting for it would stand idle.
+        _journal_events(journal, to_journal)
+        to_journal = []
         if not in_flight:
             if sched.exhausted:
                 return False
@@ -208,13 +214,14 @@ def _drive(sched: Scheduler, backend, journal, progress, cancel, started: float)
         try:
             finished = backend.wait(_WAIT_SECONDS)
         except Cancelled:
+            _journal_events(journal, to_journal)
             return True
         for slot, job_id, outcome in finished:
             job = in_flight.pop(job_id, None)
             if job is None:
                 continue
             idle.append(slot)
-            _journal_events(journal, sched.finish(job, outcome))
+            to_journal.extend(sched.finish(job, outcome))
         if finished:
             _report(progress, sched, started)
 

@@ -9,17 +9,14 @@ and a file with too few distinct values for the component range.
 
 from __future__ import annotations
 
-import os
 from pathlib import Path
 
 import numpy as np
 import openpyxl
 import pytest
 
-from clusterdesk.analysis import ScanSettings
 
-#: Light settings, so that a run over the folder takes seconds.
-SETTINGS = ScanSettings(kmin=1, kmax=3, widths="both", restarts=2, seed=7)
+from screen_helpers import SETTINGS
 SEED = 20261202
 
 
@@ -84,11 +81,6 @@ def make_inputs(folder: Path) -> dict:
     files["remarks.csv"].write_text("remark\nclear\nmurky\nweedy\nclear\n", encoding="utf-8")
     files["tiny.csv"].write_text("value\n1\n2\n3\n2\n1\n", encoding="utf-8")
     return files
-
-
-def locked_is_readable(path: Path) -> bool:
-    """True when chmod 000 does not stop this user (e.g. running as root)."""
-    return os.access(path, os.R_OK)
 
 
 @pytest.fixture(scope="session")

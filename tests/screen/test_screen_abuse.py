@@ -17,7 +17,7 @@ import pytest
 
 from clusterdesk.screen import screen
 
-from conftest import SETTINGS
+from screen_helpers import SETTINGS
 
 pytestmark = pytest.mark.skipif(not hasattr(os, "mkfifo"), reason="needs named pipes (POSIX)")
 

@@ -10,7 +10,7 @@ import pytest
 
 from clusterdesk.screen.cli import add_screen_parser, run_screen
 
-from conftest import SETTINGS
+from screen_helpers import SETTINGS
 
 _LIGHT = ["--kmax", str(SETTINGS.kmax), "--restarts", str(SETTINGS.restarts), "--seed", str(SETTINGS.seed)]
 

@@ -6,7 +6,7 @@ import pytest
 
 from clusterdesk.screen import screen
 
-from conftest import SETTINGS
+from screen_helpers import SETTINGS
 
 distributed = pytest.importorskip(
     "distributed", reason="dask.distributed is not installed (pip install 'clusterdesk[cluster]')")

@@ -15,7 +15,7 @@ from clusterdesk.screen.progress import ScreenProgress, TerminalProgress, format
 from clusterdesk.screen.summary import MAX_COMPONENT_COLUMNS, summary_cells, summary_header
 from clusterdesk.screen.tasks import ScreenRow
 
-from conftest import SETTINGS
+from screen_helpers import SETTINGS
 
 
 def test_summary_csv_holds_components_as_text_and_as_numbers(reference_run):

@@ -10,7 +10,7 @@ from clusterdesk.screen.filecache import FileListing, list_file
 from clusterdesk.screen.pool import ProcessBackend
 from clusterdesk.screen.tasks import ColumnJob, ColumnTask, JobFailure, ListJob, column_seed
 
-from conftest import SETTINGS
+from screen_helpers import SETTINGS
 
 
 def _wait_all(backend, n, limit=120.0):

@@ -10,7 +10,7 @@ from collections import Counter
 
 from clusterdesk.screen import screen
 
-from conftest import SETTINGS
+from screen_helpers import SETTINGS
 
 
 def _key(row):

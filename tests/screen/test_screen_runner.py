@@ -14,7 +14,7 @@ from clusterdesk.screen import UnfinishedRunError, screen, tasks
 from clusterdesk.screen.journal import JOURNAL_NAME
 from clusterdesk.screen.summary import summary_header
 
-from conftest import SETTINGS, locked_is_readable
+from screen_helpers import SETTINGS, locked_is_readable
 
 
 def _by_name(result):

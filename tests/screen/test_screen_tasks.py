@@ -19,7 +19,7 @@ from clusterdesk.screen import tasks
 from clusterdesk.screen.filecache import list_file
 from clusterdesk.screen.tasks import ColumnTask, column_seed, screen_column
 
-from conftest import SETTINGS
+from screen_helpers import SETTINGS
 
 
 def _kass_raftery(gap):

@@ -143,6 +143,8 @@ class DistributionView(PlotView):
         self._analysis = None
         self.edges = np.array([])
         self.heights = np.array([])
+        self._base_heights = np.array([])  # density of the kept values for the current bars (cached)
+        self._kept_total = 0.0
         self.cuts = np.array([])
         self.curves = {}
         self._bars_key = None
@@ -185,14 +187,16 @@ class DistributionView(PlotView):
             step = m.resolution if m.scale == "linear" else None
             self.edges = bin_edges(values, counts, rule=self.rule.currentText(), bins=self.bins.value(),
                                    grid_step=step)
+            self._base_heights = weighted_histogram(values, counts, self.edges)
+            self._kept_total = float(np.sum(counts)) if counts is not None else float(values.size)
             self._bars_key = key
             _style_axes(self.plot, label, "density")
         # With readings beyond a detection limit in the fit (censored), the mixture is the
         # density of the whole sample: the bars of the kept values hold only their share of it.
-        kept = float(np.sum(counts)) if counts is not None else float(values.size)
+        kept = self._kept_total
         fitted_n = analysis.scan.n if analysis.scan is not None else kept
         share = kept / fitted_n if fitted_n > kept else 1.0
-        self.heights = weighted_histogram(values, counts, self.edges) * share
+        self.heights = self._base_heights * share
         self._bars.setData(self.edges, self.heights)
         self._bars.show()
         self.curves = {"histogram": self._bars}

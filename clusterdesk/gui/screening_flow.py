@@ -14,7 +14,6 @@ from pathlib import Path
 from PySide6.QtCore import QTimer
 
 from ..analysis import DataChoice
-from .models import model_words
 from .workflow import _read_source
 
 __all__ = ["ScreeningWorkflow", "data_choice_for_row"]
@@ -74,15 +73,4 @@ class ScreeningWorkflow:
         if self.analysis is not analysis or self.runner.busy:
             return
         self.fit_panel.set_settings(settings)  # Fit models then reproduces the row too
-        self.task_unit = "models fitted"
-
-        def apply(result):
-            analysis.apply_scan(result, settings)
-            self.show_results()
-            self.distribution.redraw()
-            best = analysis.scan.best
-            self.status(f"Opened {where} from the screening (the column's seed {settings.seed}); "
-                        f"the best by BIC: {model_words(best.k, best.widths)}.")
-            self.update_actions()
-
-        self.runner.start("Fitting models", lambda p, c: analysis.compute_scan(settings, p, c), apply)
+        self.fit(settings, opening=where)

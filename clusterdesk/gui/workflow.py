@@ -201,8 +201,11 @@ class Workflow:
         """Fit with the settings the panel shows."""
         self.fit(self.current_settings())
 
-    def fit(self, settings) -> None:
-        """Scan the component counts on the worker; apply the result when it is complete."""
+    def fit(self, settings, opening: str | None = None) -> None:
+        """Scan the component counts on the worker; apply the result when it is complete.
+
+        ``opening`` names what was opened to be fitted (a screened row), for the status line.
+        """
         a = self.analysis
         if a is None or self.runner.busy:
             return
@@ -212,9 +215,13 @@ class Workflow:
             a.apply_scan(result, settings)
             self.show_results()
             self.distribution.redraw()
-            best = a.scan.best
-            self.status(f"Fitted {len(result.models)} models; the best by BIC: "
-                        f"{model_words(best.k, best.widths)}.")
+            best = model_words(a.scan.best.k, a.scan.best.widths)
+            if opening is None:
+                self.status(f"Fitted {len(result.models)} models; the best by BIC: {best}.")
+            else:
+                self.status(f"Opened {opening} from the screening (the column's seed {settings.seed}); "
+                            f"the best by BIC: {best}.")
+            self.update_actions()
 
         self.runner.start("Fitting models", lambda p, c: a.compute_scan(settings, p, c), apply)
 

@@ -67,12 +67,8 @@ def _data_like(cell) -> bool:
 
 def _bare_number(cell) -> bool:
     """A cell that is a plain number (point or comma decimal, no unit or word) or a missing-value mark."""
-    if isinstance(cell, bool):
-        return False
-    if isinstance(cell, (int, float)):
-        return True
     if not isinstance(cell, str):
-        return False
+        return looks_numeric(cell)  # numbers from a workbook; False for None and booleans
     text = clean_text(cell)
     return plain_number_text(text) or text.lower() in MISSING_MARKERS
 

@@ -208,11 +208,7 @@ class Analysis:
         limits, ends, limit_counts = self._censored_rows()
         if limits.size == 0 or (given["resolution"] is None and given["bounds"] is None):
             return {"values": values, "counts": counts, **given}
-        if given["bounds"] is None:
-            step = given["resolution"]
-            lower, upper = values - step / 2, values + step / 2
-        else:
-            lower, upper = given["bounds"]
+        lower, upper = _interval_ends(values, given)
         below = ends < 0
         kept_counts = np.ones(values.size) if counts is None else counts
         return {"values": np.concatenate([values, limits]),
@@ -372,11 +368,7 @@ class Analysis:
             return model.mixture.posterior(values)
         from .engine.grouped import interval_posterior
 
-        if given["bounds"] is not None:
-            lower, upper = given["bounds"]
-        else:
-            lower, upper = values - given["resolution"] / 2, values + given["resolution"] / 2
-        return interval_posterior(lower, upper, model.mixture)
+        return interval_posterior(*_interval_ends(values, given), model.mixture)
 
     # ------------------------------------------------------------ assignments
     def assignments(self, *, posterior: np.ndarray | None = None):
@@ -528,6 +520,14 @@ class OpenedAnalysis:
 
     analysis: Analysis
     source_changed: bool
+
+
+def _interval_ends(values, given: dict):
+    """Lower and upper ends of the kept values' intervals, from :meth:`Analysis.interval_input`'s answer."""
+    if given["bounds"] is not None:
+        return given["bounds"]
+    step = given["resolution"]
+    return values - step / 2, values + step / 2
 
 
 def _parse_saved(raw, path) -> dict:

@@ -18,7 +18,8 @@ __all__ = ["scan", "fit", "bootstrap", "likelihood_ratio_test"]
 
 
 def scan(values, *, counts=None, kmin=1, kmax=6, widths="separate", restarts=10, seed=0,
-         progress=None, cancel=None, treatment="auto", resolution=None, bounds=None) -> ScanResult:
+         progress=None, cancel=None, treatment="auto", resolution=None, bounds=None,
+         workers=None) -> ScanResult:
     """Fit mixtures of kmin..kmax normal components and rank them by BIC.
 
     Parameters
@@ -52,6 +53,13 @@ def scan(values, *, counts=None, kmin=1, kmax=6, widths="separate", restarts=10,
     bounds : tuple (lower, upper) of array_like, each shape (n,), optional
         Each value's interval end by end (``-inf`` for a reading below a
         detection limit); used with ``"auto"`` and ``"intervals"``.
+    workers : int, optional
+        Worker processes for large samples (many distinct values, where one
+        model takes seconds). Default: the cores available (at most 2) in the
+        window, the ``clusterdesk`` command and interactive sessions; 1 in a
+        script, which may ask for more with ``workers=2`` from under
+        ``if __name__ == "__main__":`` (Python's rule for process pools). The
+        result is the same, bit for bit, whatever the number.
 
     Returns
     -------
@@ -66,7 +74,7 @@ def scan(values, *, counts=None, kmin=1, kmax=6, widths="separate", restarts=10,
     """
     return scan_models(values, counts=counts, kmin=kmin, kmax=kmax, widths=widths,
                        restarts=restarts, seed=seed, progress=progress, cancel=cancel,
-                       treatment=treatment, resolution=resolution, bounds=bounds)
+                       treatment=treatment, resolution=resolution, bounds=bounds, workers=workers)
 
 
 def fit(values, k, *, counts=None, widths="separate", restarts=10, seed=0, cancel=None,

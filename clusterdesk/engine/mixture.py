@@ -40,6 +40,23 @@ def _read_only(values: np.ndarray) -> np.ndarray:
     return values
 
 
+def _unpickle_mixture(cls, weights, means, sds):
+    """A pickled mixture, validated by the constructor, with its weights exactly as pickled.
+
+    The constructor divides the weights by their sum, which can move the last
+    bit of weights that were already normalised; a model fitted in a worker
+    process must arrive bit for bit as it was fitted.
+    """
+    mixture = cls(weights, means, sds)
+    object.__setattr__(mixture, "weights", _read_only(np.array(weights, dtype=float)[_sorted_order(means, sds)]))
+    return mixture
+
+
+def _sorted_order(means, sds) -> np.ndarray:
+    """Components by mean, ties by standard deviation (the order of a Mixture)."""
+    return np.lexsort((np.asarray(sds, dtype=float), np.asarray(means, dtype=float)))
+
+
 def _parameter_array(name: str, values) -> np.ndarray:
     try:
         array = np.array(values, dtype=np.float64)
@@ -112,7 +129,7 @@ class Mixture:
             )
         if np.any(sds <= 0):
             raise InputError(f"Mixture standard deviations must be positive; got {sds.tolist()}.")
-        order = np.lexsort((sds, means))
+        order = _sorted_order(means, sds)
         object.__setattr__(self, "weights", _read_only(weights[order] / total))
         object.__setattr__(self, "means", _read_only(means[order]))
         object.__setattr__(self, "sds", _read_only(sds[order]))
@@ -128,7 +145,7 @@ class Mixture:
 
     def __reduce__(self):
         # Rebuild through the constructor so unpickled arrays are validated and read-only.
-        return (type(self), (self.weights.copy(), self.means.copy(), self.sds.copy()))
+        return (_unpickle_mixture, (type(self), self.weights.copy(), self.means.copy(), self.sds.copy()))
 
     @property
     def k(self) -> int:

@@ -7,6 +7,7 @@ depend on which other models were scanned, or in which order.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 
 import numpy as np
@@ -14,6 +15,7 @@ import numpy as np
 from . import criteria
 from .fitting import FitSettings, FittedModel, fit_model
 from .outliers import outlier_note
+from .parallel import blas_one_thread, process_workers, run_batches, worker_cancel_token
 from .treatment import Treatment, resolve_treatment
 from .validation import check_component_range, check_seed, check_widths
 from ..errors import Cancelled, InputError
@@ -132,7 +134,7 @@ def model_rng(seed: int, k: int, widths: str) -> np.random.Generator:
 
 def scan_models(values, *, counts=None, kmin=1, kmax=6, widths="separate", restarts=10, seed=0,
                 progress=None, cancel=None, settings: FitSettings | None = None,
-                treatment="auto", resolution=None, bounds=None) -> ScanResult:
+                treatment="auto", resolution=None, bounds=None, workers=None) -> ScanResult:
     """Fit every component count from kmin to kmax for each width variant and rank them.
 
     Parameters
@@ -154,6 +156,15 @@ def scan_models(values, *, counts=None, kmin=1, kmax=6, widths="separate", resta
     resolution : float, optional
     bounds : tuple (lower, upper) of array_like, optional
         Exact values or intervals: see :func:`.treatment.resolve_treatment`.
+    workers : int, optional
+        Worker processes for samples large enough to be fitted on a histogram
+        first (more distinct values than ``settings.bin_above``), where one
+        model takes seconds; default the cores available (at most 2) where
+        starting processes is safe, else 1 (see :func:`.parallel.process_workers`:
+        a script passes ``workers`` itself, from under ``if __name__ ==
+        "__main__":``). Smaller samples are fitted in this thread (a model
+        takes milliseconds, less than starting a process). The result is the
+        same, bit for bit, whatever the number.
 
     Returns
     -------
@@ -166,17 +177,45 @@ def scan_models(values, *, counts=None, kmin=1, kmax=6, widths="separate", resta
     check_seed(seed)
     settings = _with_restarts(settings, restarts)
     jobs = [(w, k) for w in variants for k in range(kmin, kmax + 1)]
-    models = []
-    for done, (w, k) in enumerate(jobs, start=1):
-        if cancel is not None and cancel.is_set():
-            raise Cancelled("The scan was cancelled before it finished; no results were kept.")
-        models.append(fit_model(sample, k, w, model_rng(seed, k, w), settings, cancel))
-        if progress is not None:
-            progress(done, len(jobs))
+    workers = process_workers(workers)
+    if workers > 1 and len(jobs) > 1 and not sample.is_intervals and sample.n_distinct > settings.bin_above:
+        models = _fit_in_processes(sample, jobs, seed, settings, workers, progress, cancel)
+    else:
+        models = []
+        with blas_one_thread():  # as in the worker processes: the same numbers whatever the workers
+            for done, (w, k) in enumerate(jobs, start=1):
+                if cancel is not None and cancel.is_set():
+                    raise Cancelled("The scan was cancelled before it finished; no results were kept.")
+                models.append(fit_model(sample, k, w, model_rng(seed, k, w), settings, cancel))
+                if progress is not None:
+                    progress(done, len(jobs))
     suspects = tuple(sorted({v for m in models for v in m.suspect_values}))
     notes = (outlier_note(suspects),) if suspects else ()
     return ScanResult(models=tuple(models), ranking=rank_models(models), n=sample.n, seed=int(seed),
                       treatment=used, notes=notes, suspect_values=suspects)
+
+
+def _fit_in_processes(sample, jobs, seed, settings, workers, progress, cancel):
+    """Fit the models in worker processes, the costliest first; returned in the order of ``jobs``.
+
+    Cost grows with the number of parameters (separate widths, many
+    components), so those start first and the cheap ones fill the gaps.
+    """
+    order = sorted(range(len(jobs)), key=lambda i: -criteria.n_parameters(jobs[i][1], jobs[i][0]))
+    task = functools.partial(_fit_jobs, sample, tuple(jobs), int(seed), settings)
+    parts = run_batches(task, [np.array([i]) for i in order], workers=workers, progress=progress,
+                        cancel=cancel, what="scan", processes=True)
+    models = [None] * len(jobs)
+    for i, part in zip(order, parts):
+        models[i] = part[0]
+    return models
+
+
+def _fit_jobs(sample, jobs, seed, settings, batch):
+    """Fit the models ``jobs[i]`` for i in ``batch`` (in a worker process)."""
+    cancel = worker_cancel_token()
+    return [fit_model(sample, jobs[i][1], jobs[i][0], model_rng(seed, jobs[i][1], jobs[i][0]),
+                      settings, cancel) for i in batch]
 
 
 def _with_restarts(settings, restarts):

@@ -18,43 +18,16 @@ whatever the number of workers.
 
 from __future__ import annotations
 
-import contextlib
 import multiprocessing
 import queue
 import signal
 
+from ..engine.parallel import blas_one_thread, limit_blas_threads
 from .tasks import JobFailure, run_job
 
 __all__ = ["InlineBackend", "ProcessBackend", "limit_blas_threads", "blas_one_thread"]
 
 _POLL_SECONDS = 0.2
-_LIMITER = []
-
-
-def limit_blas_threads() -> None:
-    """Limit BLAS to one thread in this process, for good (worker processes)."""
-    if _LIMITER:
-        return
-    try:
-        from threadpoolctl import threadpool_limits
-    except ImportError:  # without threadpoolctl the libraries keep their own setting
-        _LIMITER.append(None)
-        return
-    _LIMITER.append(threadpool_limits(limits=1))
-
-
-@contextlib.contextmanager
-def blas_one_thread():
-    """Limit BLAS to one thread while the block runs (this process)."""
-    try:
-        from threadpoolctl import threadpool_limits
-    except ImportError:
-        yield
-        return
-    with threadpool_limits(limits=1):
-        yield
-
-
 class InlineBackend:
     """One slot, in this process: each job runs when :meth:`wait` is called.
 

@@ -257,8 +257,9 @@ def _fit(data: filecache.ColumnValues, task: ColumnTask, settings: ScanSettings,
     if kmax < settings.kmax:
         notes.append(f"kmax lowered from {settings.kmax} to {kmax}: the column has too few "
                      "distinct values for more components.")
+    # One process per column: the screening's workers are the parallel unit.
     result = scan(data.values, kmin=settings.kmin, kmax=kmax, widths=settings.widths,
-                  restarts=settings.restarts, seed=task.seed, cancel=cancel)
+                  restarts=settings.restarts, seed=task.seed, cancel=cancel, workers=1)
     best = result.best
     mix = best.mixture
     second = _runner_up(result)

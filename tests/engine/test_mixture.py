@@ -493,3 +493,17 @@ def test_modes_single_component_is_its_mean_and_extreme_scale():
     # Widely different scales: a narrow and a very wide component far apart.
     wide = Mixture([0.5, 0.5], [-1e6, 1e6], [1e-6, 1e6]).modes()
     np.testing.assert_allclose(wide, [-1e6, 1e6], rtol=1e-9)
+
+
+def test_pickle_keeps_every_bit_of_the_weights():
+    # Models fitted in worker processes come back pickled; dividing normalised
+    # weights by their sum again can move their last bit (floating-point
+    # rounding, common practice), so the round trip must not renormalise.
+    rng = np.random.default_rng(7)
+    for _ in range(200):
+        k = int(rng.integers(2, 9))
+        mixture = Mixture(rng.dirichlet(np.ones(k)), rng.normal(size=k), rng.uniform(0.1, 2.0, k))
+        again = pickle.loads(pickle.dumps(mixture))
+        assert again.weights.tobytes() == mixture.weights.tobytes()
+        assert again == mixture
+        assert not again.weights.flags.writeable

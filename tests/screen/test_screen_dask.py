@@ -15,7 +15,7 @@ distributed = pytest.importorskip(
 @pytest.fixture
 def restore_blas_threads():
     """The in-process workers limit BLAS to one thread for good; give this test process its setting back."""
-    from clusterdesk.screen import pool
+    from clusterdesk.engine import parallel as pool
 
     yield
     for limiter in pool._LIMITER:

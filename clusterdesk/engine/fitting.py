@@ -75,6 +75,18 @@ class FitSettings:
         Samples with more distinct values than this are first fitted on a
         histogram of ``bins`` bins, then polished on the raw values.
     bins : int, default 2048
+        About how many bins span the sample's range; see ``bins_per_spread``.
+    bins_per_spread : int, default 256
+        The bin width is at most the robust spread (interquartile range / 1.349)
+        divided by this, so far-out values (which only add a non-empty bin
+        each) do not coarsen the bins of the bulk.
+    bins_per_narrowest_sd : int, default 20
+        When the best histogram solution has a component narrower than 10 bin
+        widths, the histogram stage is run again from its candidates on bins
+        of this fraction of that component's standard deviation (at most
+        ``8 * bins`` non-empty bins), so that every component is fitted on
+        bins small against it. The width used is reported
+        (``FittedModel.bin_width``).
     polish : int, default 3
         How many distinct histogram solutions are polished on the raw values
         at most: the best, and the next ones only when their histogram
@@ -104,6 +116,8 @@ class FitSettings:
     min_count: float = 2.0
     bin_above: int = 4000
     bins: int = 2048
+    bins_per_spread: int = 256
+    bins_per_narrowest_sd: int = 20
     polish: int = 3
     polish_within: float = 1.0
     agree_tol: float = 1e-6
@@ -147,6 +161,10 @@ class FittedModel:
     suspect_values : tuple of float
         When the model collapsed onto values far outside the rest of the
         sample, those values (see :mod:`.outliers`); empty otherwise.
+    bin_width : float or None, default None
+        When the model was found on a histogram first and then polished on
+        the values themselves: the width of its bins, in the values' units
+        (None when fitted on the values directly).
     """
 
     mixture: Mixture
@@ -167,6 +185,7 @@ class FittedModel:
     notes: tuple = ()
     likelihood: str = "exact"
     suspect_values: tuple = ()
+    bin_width: float | None = None
 
     @property
     def min_weight(self) -> float:
@@ -231,8 +250,9 @@ def fit_model(sample: Sample, k: int, widths: str, rng: np.random.Generator,
         return fit_intervals(sample, k, widths, rng, settings, cancel)
     data = standardise(sample, settings)
     shared = widths == "shared"
+    bin_width = None
     if sample.n_distinct > settings.bin_above:
-        result, agreeing, used = _fit_binned_then_polish(data, k, shared, rng, settings, cancel)
+        result, agreeing, used, bin_width = _fit_binned_then_polish(data, k, shared, rng, settings, cancel)
     else:
         starts = _screened_starts(data.x, data.c, k, shared, rng, data.var_floor, settings, cancel)
         result = _run(data.x, data.c, data, k, shared, starts, settings, cancel)
@@ -244,7 +264,8 @@ def fit_model(sample: Sample, k: int, widths: str, rng: np.random.Generator,
     restarts = int(result.loglik.size) if used == 0 else used
     suspects = _suspect_values(data, sample, result, best, settings) if degenerate[best] else ()
     return _finish(data, sample, result, best, k, widths, agreeing, restarts,
-                   collapsed=bool(degenerate[best]), suspects=suspects)
+                   collapsed=bool(degenerate[best]), suspects=suspects,
+                   bin_width=None if bin_width is None else bin_width * data.scale)
 
 
 def _suspect_values(data, sample, result, best, settings):
@@ -315,11 +336,9 @@ def _fit_binned_then_polish(data, k, shared, rng, settings, cancel):
     # optima sooner than interval EM at a loose tolerance (measured on the scan
     # benchmark's data: 4.7 s against 15.8 s for k = 1..8, higher log-likelihoods
     # for k = 5..8).  The bins' floor keeps a component wider than one bin.
-    from .grouped import histogram_bins
-
-    lower, upper, cb = histogram_bins(data.x, data.c, settings.bins, data.step)
-    xb = 0.5 * (lower + upper)
-    width = float(np.max(upper - lower))
+    spread = _robust_spread(data.x, data.c)
+    width = min((data.x[-1] - data.x[0]) / settings.bins, spread / settings.bins_per_spread)
+    xb, cb, width = _histogram(data, width, settings)
     floor_b = max(data.var_floor, width * width)
     starts = _screened_starts(xb, cb, k, shared, rng, floor_b, settings, cancel)
     binned = _run(xb, cb, data, k, shared, starts, settings, cancel, var_floor=floor_b,
@@ -328,11 +347,38 @@ def _fit_binned_then_polish(data, k, shared, rng, settings, cancel):
     best = _best_index(binned.loglik, degenerate)
     agreeing = _count_agreeing(binned.loglik, best, data.n, settings.agree_tol)
     picks = _distinct_candidates(binned.loglik, degenerate, data.n, settings)
+    tried = int(binned.loglik.size)
+    narrowest = float(np.sqrt(binned.variances[best].min()))
+    if width > 0.1 * narrowest:  # a component spans under 10 bins: once more on finer bins
+        xf, cf, fine = _histogram(data, narrowest / settings.bins_per_narrowest_sd, settings)
+        if fine < width:
+            refined = _run(xf, cf, data, k, shared,
+                           (binned.weights[picks], binned.means[picks], binned.variances[picks]),
+                           settings, cancel, var_floor=max(data.var_floor, fine * fine),
+                           max_steps=settings.binned_newton_steps)
+            refined.iterations += binned.iterations[picks]
+            binned, width = refined, fine
+            picks = np.arange(len(picks))
     polished = _run(data.x, data.c, data, k, shared,
                     (binned.weights[picks], binned.means[picks], binned.variances[picks]),
                     settings, cancel)
     polished.iterations += binned.iterations[picks]
-    return polished, agreeing, int(binned.loglik.size)
+    return polished, agreeing, tried, width
+
+
+def _histogram(data, width, settings):
+    """Midpoints and counts of the non-empty bins of about the given width, and the width used.
+
+    Bins are aligned to the values' grid (:func:`.grouped.histogram_bins`);
+    the width is doubled until at most ``8 * settings.bins`` bins are non-empty.
+    """
+    from .grouped import histogram_bins
+
+    while True:
+        lower, upper, counts = histogram_bins(data.x, data.c, settings.bins, data.step, width=width)
+        if counts.size <= 8 * settings.bins:
+            return 0.5 * (lower + upper), counts, float(upper[0] - lower[0])
+        width *= 2.0
 
 
 def _distinct_candidates(loglik, degenerate, n, settings):
@@ -428,7 +474,7 @@ def _count_agreeing(loglik, best, n, tol):
     return int(np.sum(np.abs(loglik - loglik[best]) <= tol * n + 1e-9))
 
 
-def _finish(data, sample, result, best, k, widths, agreeing, restarts, collapsed, suspects=()):
+def _finish(data, sample, result, best, k, widths, agreeing, restarts, collapsed, suspects=(), bin_width=None):
     scale = data.scale
     mixture = Mixture(weights=result.weights[best],
                       means=data.center + scale * result.means[best],
@@ -449,11 +495,12 @@ def _finish(data, sample, result, best, k, widths, agreeing, restarts, collapsed
     return model_with_criteria(mixture, k, widths, loglik, data.n, entropy, converged=converged,
                                iterations=int(result.iterations[best]), restarts=restarts,
                                agreeing=agreeing, collapsed=collapsed, notes=notes,
-                               suspects=suspects)
+                               suspects=suspects, bin_width=bin_width)
 
 
 def model_with_criteria(mixture, k, widths, loglik, n, entropy, *, converged, iterations, restarts,
-                        agreeing, collapsed, notes, likelihood="exact", suspects=()) -> FittedModel:
+                        agreeing, collapsed, notes, likelihood="exact", suspects=(),
+                        bin_width=None) -> FittedModel:
     """A :class:`FittedModel` with its parameter count, BIC, AIC and ICL computed."""
     n_params = criteria.n_parameters(k, widths)
     bic = criteria.bic(loglik, n_params, n)
@@ -462,4 +509,4 @@ def model_with_criteria(mixture, k, widths, loglik, n, entropy, *, converged, it
                        icl=criteria.icl(bic, entropy), entropy=entropy, converged=converged,
                        iterations=iterations, restarts=restarts, restarts_agreeing=agreeing,
                        collapsed=collapsed, notes=tuple(notes), likelihood=likelihood,
-                       suspect_values=tuple(suspects))
+                       suspect_values=tuple(suspects), bin_width=bin_width)

@@ -360,7 +360,7 @@ def fit_bins(lower, upper, counts, k: int, shared: bool, rng: np.random.Generato
     return _restarts(data, k, shared, rng, settings, cancel, em=settings.em)
 
 
-def histogram_bins(x, c, bins: int, step: float | None = None):
+def histogram_bins(x, c, bins: int, step: float | None = None, width: float | None = None):
     """Non-empty bins of a fine histogram of sorted values, aligned to their grid.
 
     Parameters
@@ -370,11 +370,15 @@ def histogram_bins(x, c, bins: int, step: float | None = None):
     c : ndarray, shape (n,)
         Their counts.
     bins : int
-        About how many bins span the range.
+        About how many bins span the range (when ``width`` is not given).
     step : float, optional
         Grid step of the values: the bin edges then lie halfway between grid
         points and each bin holds a whole number of grid cells, so no recorded
         value sits on an edge and each bin is an exact interval of the data.
+    width : float, optional
+        Wanted bin width instead (rounded up to whole grid cells); only the
+        non-empty bins are returned, so far-out values cost a bin each, not
+        the range between them.
 
     Returns
     -------
@@ -382,6 +386,8 @@ def histogram_bins(x, c, bins: int, step: float | None = None):
         Edges and counts of the ``m`` non-empty bins.
     """
     lo, hi = float(x[0]), float(x[-1])
+    if width is not None:
+        return _sparse_bins(x, c, width, step)
     if step is not None and step > 0:
         cells = int(round((hi - lo) / step)) + 1
         per_bin = max(1, -(-cells // bins))
@@ -394,6 +400,19 @@ def histogram_bins(x, c, bins: int, step: float | None = None):
     counts = np.diff(cum[np.searchsorted(x, edges, side="left")])
     keep = counts > 0
     return edges[:-1][keep], edges[1:][keep], counts[keep]
+
+
+def _sparse_bins(x, c, width, step):
+    """The non-empty bins of the given width (whole grid cells when ``step``), found value by value."""
+    if step is not None and step > 0:
+        width = max(1, int(np.ceil(width / step - 1e-9))) * step
+        origin = float(x[0]) - 0.5 * step   # edges halfway between grid points
+    else:
+        origin = float(x[0])
+    index = np.floor((x - origin) / width).astype(np.int64)
+    starts = np.flatnonzero(np.r_[True, np.diff(index) > 0])
+    lower = origin + index[starts] * width
+    return lower, lower + width, np.add.reduceat(c, starts)
 
 
 def _restarts(data, k, shared, rng, settings, cancel, em=None):

@@ -188,7 +188,11 @@ def _chunk_terms(x, c, w, mu, sd, shared, order):
     if order == 1:
         return loglik, nk, grad
     outer = (scores * c) @ scores.T
-    sums = np.stack([rz @ c, (rz * z) @ c, rz2m1 @ c, (rz * z2m1) @ c, (rz2m1 * z2m1) @ c])
+    # sum c r z and sum c r (z^2 - 1) are parts of the gradient already; sum c r z^2 follows.
+    s_z = grad[k - 1:2 * k - 1] * sd
+    s_z2m1 = rz2m1 @ c if shared else grad[2 * k - 1:]
+    rz2m1 *= z2m1
+    sums = np.stack([s_z, s_z2m1 + nk, s_z2m1, (rz * z2m1) @ c, rz2m1 @ c])
     return loglik, nk, grad, outer, sums
 
 

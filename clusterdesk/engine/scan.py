@@ -51,6 +51,9 @@ class RankingRow:
     collapsed : bool
     likelihood : {"exact", "intervals"}
         The likelihood the model's log-likelihood and criteria are of.
+    bin_width : float or None
+        Width of the histogram the model was first found on, in the values'
+        units (None: fitted on the values directly); see ``FittedModel.bin_width``.
     """
 
     rank: int
@@ -70,6 +73,7 @@ class RankingRow:
     iterations: int
     collapsed: bool
     likelihood: str = "exact"
+    bin_width: float | None = None
 
 
 @dataclass(frozen=True)
@@ -249,5 +253,5 @@ def rank_models(models) -> tuple:
                                converged=m.converged, restarts=m.restarts,
                                restarts_agreeing=m.restarts_agreeing, min_weight=m.min_weight,
                                iterations=m.iterations, collapsed=m.collapsed,
-                               likelihood=m.likelihood))
+                               likelihood=m.likelihood, bin_width=m.bin_width))
     return tuple(rows)

@@ -36,13 +36,19 @@ class Table:
 
 
 def ranking_table(scan) -> Table:
-    """Every scanned model, best first."""
+    """Every scanned model, best first.
+
+    ``histogram_bin_width`` is the width of the histogram a model of a large
+    sample was first found on before its polish on the values themselves
+    (empty when it was fitted on the values directly).
+    """
     header = ("rank", "components", "widths", "log_likelihood", "parameters", "bic",
               "delta_bic", "bic_weight", "aic", "icl", "converged", "restarts",
-              "restarts_agreeing", "smallest_weight", "iterations", "collapsed", "likelihood")
+              "restarts_agreeing", "smallest_weight", "iterations", "collapsed", "likelihood",
+              "histogram_bin_width")
     rows = [(r.rank, r.k, r.widths, r.loglik, r.n_params, r.bic, r.delta_bic, r.bic_weight,
              r.aic, r.icl, r.converged, r.restarts, r.restarts_agreeing, r.min_weight,
-             r.iterations, r.collapsed, r.likelihood) for r in scan.ranking]
+             r.iterations, r.collapsed, r.likelihood, r.bin_width) for r in scan.ranking]
     return Table(header, rows)
 
 
@@ -172,6 +178,7 @@ def summary_dict(analysis, *, posterior=None) -> dict:
         "chosen": {"components": chosen.k, "widths": chosen.widths, "log_likelihood": chosen.loglik,
                    "bic": chosen.bic, "aic": chosen.aic, "icl": chosen.icl,
                    "converged": chosen.converged, "restarts_agreeing": chosen.restarts_agreeing,
+                   "histogram_bin_width": chosen.bin_width,
                    "restarts": chosen.restarts, "weights": mix.weights.tolist(),
                    "means": mix.means.tolist(), "sds": mix.sds.tolist(),
                    "cut_points": [None if np.isnan(c) else float(c) for c in mix.cut_points()],

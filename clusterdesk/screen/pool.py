@@ -18,6 +18,7 @@ whatever the number of workers.
 
 from __future__ import annotations
 
+import contextlib
 import multiprocessing
 import queue
 import signal

@@ -38,3 +38,26 @@ def test_polishing_only_near_solutions_loses_no_likelihood(k, widths):
     every = fit_model(sample, k, widths, model_rng(0, k, widths), FitSettings(polish_within=math.inf))
     assert near.loglik >= every.loglik - 1e-9 * n
     assert near.converged
+
+
+def test_histogram_is_refined_for_a_narrow_component_and_its_width_reported():
+    # A narrow group (sd 0.02) beside a wide one (sd 1): the first histogram
+    # (width about range / 2048) spans the narrow group with under 10 bins, so
+    # the fit is run again on bins of 1/20 of its sd, and the width is reported.
+    # Reference: scikit-learn's GaussianMixture on the raw values, tight tolerance.
+    from sklearn.mixture import GaussianMixture
+
+    rng = np.random.default_rng(2026)
+    x = np.round(np.concatenate([rng.normal(0.0, 1.0, 5000), rng.normal(3.0, 0.02, 1000)]), 4)
+    sample = prepare_sample(x)
+    assert sample.n_distinct > FitSettings().bin_above
+    model = fit_model(sample, 2, "separate", model_rng(0, 2, "separate"))
+    narrow = model.mixture.sds.min()
+    assert model.bin_width is not None
+    assert model.bin_width <= narrow / 10
+    assert model.bin_width >= 1e-4 - 1e-12  # whole cells of the recording step
+    reference = GaussianMixture(2, covariance_type="full", tol=1e-12, max_iter=5000, n_init=5,
+                                random_state=0).fit(x.reshape(-1, 1))
+    assert model.loglik >= reference.score(x.reshape(-1, 1)) * x.size - 1e-6 * x.size
+    small = fit_model(prepare_sample(x[:3000]), 2, "separate", model_rng(0, 2, "separate"))
+    assert small.bin_width is None  # fitted on the values directly

@@ -261,3 +261,25 @@ def test_histogram_bins_on_a_grid_hold_whole_cells():
     ref = [np.count_nonzero((x >= a) & (x < b)) for a, b in zip(lower, upper)]
     np.testing.assert_array_equal(counts, ref)
     assert counts.sum() == x.size
+
+
+@pytest.mark.parametrize("step", [0.5, None])
+def test_histogram_bins_of_a_given_width_skip_the_empty_range_to_far_values(step):
+    # Bins of a chosen width: a reading 10^9 widths away adds one bin, not 10^9
+    # empty ones; each bin's count is the number of values in it (direct
+    # comparison as reference), and on a grid the bins hold whole cells.
+    rng = np.random.default_rng(11)
+    bulk = rng.normal(0, 20, 5000)
+    if step is not None:
+        bulk = np.round(bulk / step) * step
+    x = np.sort(np.append(bulk, 2.0e9))
+    c = np.ones_like(x)
+    lower, upper, counts = histogram_bins(x, c, 64, step=step, width=1.2)
+    assert counts.sum() == x.size
+    assert counts.size < 300
+    width = upper - lower
+    expected = 1.5 if step is not None else 1.2  # whole cells of 0.5: 1.2 rounds up to 1.5
+    np.testing.assert_allclose(width, expected)
+    assert np.all(np.diff(lower) >= expected - 1e-6)
+    ref = [np.count_nonzero((x >= a) & (x < b)) for a, b in zip(lower, upper)]
+    np.testing.assert_array_equal(counts, ref)

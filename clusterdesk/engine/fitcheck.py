@@ -25,7 +25,6 @@ from dataclasses import dataclass
 
 import numpy as np
 from scipy.special import ndtr
-from scipy.stats import kstwo
 
 from ..errors import InputError
 from .fitting import FittedModel
@@ -145,6 +144,8 @@ def goodness_of_fit(mixture: Mixture, values, counts=None) -> FitCheck:
     used = distance
     if rounded:
         used = ks_distance(before, after, mixture.cdf(x - 0.5 * step), mixture.cdf(x + 0.5 * step))[0]
+    from scipy.stats import kstwo  # imported here: scipy.stats takes half a second to import
+
     p_value = float(kstwo.sf(float(used), int(round(sample.n))))
     check = FitCheck(plotting_positions=_frozen(positions), theoretical=_frozen(mixture.quantile(positions)),
                      observed=_frozen(x), ks_distance=float(distance), ks_location=float(x[where]),

@@ -25,7 +25,6 @@ explains (the centre against the tails).
 from __future__ import annotations
 
 import numpy as np
-from scipy.optimize import linear_sum_assignment
 
 __all__ = ["posteriors", "posterior_agreement", "match_to_reference"]
 
@@ -100,6 +99,8 @@ def match_to_reference(agreement) -> np.ndarray:
         component that plays its part: ``params[b, order[b]]`` puts a
         replicate's components in the reference's order.
     """
+    from scipy.optimize import linear_sum_assignment  # imported here: scipy.optimize is slow to import
+
     agreement = np.asarray(agreement, dtype=np.float64)
     order = np.empty(agreement.shape[:2], dtype=np.int64)
     for b, table in enumerate(agreement):

@@ -17,7 +17,6 @@ import operator
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.optimize import brentq
 from scipy.special import log_ndtr, logsumexp, ndtr, ndtri
 
 from ..errors import InputError
@@ -473,6 +472,8 @@ class Mixture:
         exactly when its means are more than 2 sds apart (Schilling, Watkins &
         Watkins 2002, The American Statistician 56:223-229).
         """
+        from scipy.optimize import brentq  # imported here: scipy.optimize is slow to import
+
         local = (self.means[:, None] + self.sds[:, None] * _MODE_GRID_OFFSETS).ravel()
         span = np.linspace(local.min(), local.max(), _MODE_GRID_SPAN_POINTS)
         grid = np.sort(np.concatenate([local, span]))

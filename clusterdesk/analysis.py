@@ -336,10 +336,15 @@ class Analysis:
         model = self.chosen if model is None else model
         return goodness_of_fit(model.mixture, values, counts)
 
-    def classification(self, model: FittedModel | None = None, *, posterior: np.ndarray | None = None):
+    def classification(self, model: FittedModel | None = None, *, posterior: np.ndarray | None = None,
+                       groups=None):
         """Rows assigned to components, confident share and misclassification rates.
 
-        ``posterior`` (n_kept, k), when given, is ``self.posterior(model)`` already computed.
+        ``groups`` (:meth:`value_groups`), when given, makes the summary one of the
+        distinct kept values, each counted as often as it occurs (the same
+        shares, counts and rates, as sums of whole numbers); ``posterior``,
+        when given, is ``self.posterior(model, rows=...)`` already computed for
+        the rows summarised: ``groups.first``, else every kept value.
 
         Returns
         -------
@@ -350,62 +355,108 @@ class Analysis:
 
         values, counts = self.fit_input()
         model = self.chosen if model is None else model
+        rows = None
+        if groups is not None:
+            rows = groups.first
+            values, counts = values[rows], groups.totals(counts)
         if posterior is None:
-            posterior = self.posterior(model)
+            posterior = self.posterior(model, rows=rows)
         return classification_summary(model.mixture, values, counts, posterior=posterior)
 
-    def posterior(self, model: FittedModel | None = None) -> np.ndarray:
+    def posterior(self, model: FittedModel | None = None, *, rows: np.ndarray | None = None) -> np.ndarray:
         """Posterior probabilities of the kept values, shape (n_kept, k), in file order.
 
         For a model fitted to intervals they are the probabilities given that
         each value lies in its interval (:func:`clusterdesk.engine.grouped.interval_posterior`),
-        otherwise given the exact value.
+        otherwise given the exact value. ``rows`` (positions among the kept
+        values), when given, selects the values: shape (rows.size, k), the
+        same numbers as those rows of the whole.
         """
         values, _ = self.fit_input()
         model = self.chosen if model is None else model
-        given = self.interval_input()
-        if model.likelihood != "intervals" or (given["resolution"] is None and given["bounds"] is None):
-            return model.mixture.posterior(values)
+        given = self._posterior_intervals(model)
+        picked = values if rows is None else values[rows]
+        if given is None:
+            return model.mixture.posterior(picked)
         from .engine.grouped import interval_posterior
 
-        return interval_posterior(*_interval_ends(values, given), model.mixture)
+        if given["bounds"] is None:
+            return interval_posterior(*_interval_ends(picked, given), model.mixture)
+        lower, upper = given["bounds"]
+        return interval_posterior(*((lower, upper) if rows is None else (lower[rows], upper[rows])), model.mixture)
+
+    def _posterior_intervals(self, model: FittedModel):
+        """:meth:`interval_input` when ``model``'s posteriors are those of intervals, else None."""
+        given = self.interval_input()
+        if model.likelihood != "intervals" or (given["resolution"] is None and given["bounds"] is None):
+            return None
+        return given
+
+    def value_groups(self, model: FittedModel | None = None):
+        """The kept values grouped by value, bit for bit, for results computed once per distinct value.
+
+        A kept row's posteriors, component and table text follow from its
+        value; ten million values recorded to 0.001 hold some 31,000 distinct
+        ones. The values on the analysis scale, and the interval ends that
+        ``model``'s posteriors use (default: the chosen model's), are checked
+        to be the same within each group.
+
+        Returns
+        -------
+        RowGroups
+            Over the kept values (:func:`clusterdesk.engine.distinct.group_rows`).
+        """
+        from .engine.distinct import group_rows
+
+        m = self._need_measurements()
+        follow = [] if m.fit_values is m.values else [m.fit_values]
+        given = self._posterior_intervals(self.chosen if model is None else model)
+        if given is not None and given["bounds"] is not None:
+            follow += list(given["bounds"])
+        return group_rows(m.values, step=m.resolution, follow=follow)
 
     # ------------------------------------------------------------ assignments
-    def assignments(self, *, posterior: np.ndarray | None = None):
+    def assignments(self, *, posterior: np.ndarray | None = None, groups=None):
         """Component and posterior probabilities for every input row.
 
-        ``posterior`` (n_kept, k), when given, is ``self.posterior()`` already computed.
+        Without ``groups``, one entry per row; ``posterior`` (n_kept, k), when
+        given, is ``self.posterior()`` already computed.
+
+        With ``groups`` (:meth:`value_groups`), one entry per distinct row
+        (each distinct kept value; each distinct value and reason among the
+        excluded rows) and ``row_group`` (n_rows,), the entry of every row:
+        its text is that entry's. ``posterior``, when given, is
+        ``self.posterior(rows=groups.first)``.
 
         Returns
         -------
         dict
-            ``line`` (n_rows,), ``value`` (n_rows,) on the original scale,
-            ``kept`` (bool), ``reason`` (words), ``component`` (1-based, 0 when
+            ``line`` (n_rows,), ``value`` on the original scale, ``kept``
+            (bool), ``reason`` (words), ``component`` (1-based, 0 when
             excluded), ``max_posterior`` (NaN when excluded) and ``posterior``
-            (n_rows, k), NaN rows for excluded rows.
+            (entries, k), NaN rows for excluded rows; and ``row_group`` when grouped.
         """
         m = self._need_measurements()
-        model = self.chosen
         rows = m.rows
-        post_kept = self.posterior(model) if posterior is None else posterior
-        k = model.k
+        if groups is None:
+            post_kept = self.posterior() if posterior is None else posterior
+            if not rows.kept.all():  # (when every row is kept, no (n, k) copies of a long column)
+                post_kept = post_kept[rows.position[rows.kept]]
+            return {"line": rows.line, **_row_entries(rows, None, post_kept)}
+        from .engine.distinct import group_rows
+
+        post_kept = self.posterior(rows=groups.first) if posterior is None else posterior
         kept = rows.kept
-        if kept.all():  # every row kept, in file order: no (n, k) copies of a long column
-            posterior = kept_post = post_kept
-        else:
-            kept_post = post_kept[rows.position[kept]]
-            posterior = np.full((len(rows), k), np.nan)
-            posterior[kept] = kept_post
-        best = np.argmax(kept_post, axis=1)
-        component = np.zeros(len(rows), dtype=np.int64)
-        component[kept] = best + 1
-        max_post = np.full(len(rows), np.nan)
-        max_post[kept] = np.take_along_axis(kept_post, best[:, None], axis=1)[:, 0]
-        words = np.array([rows.reason_words(code) for code in range(int(rows.reason.max(initial=0)) + 1)],
-                         dtype=object)
-        return {"line": rows.line, "value": rows.value, "kept": kept,
-                "reason": words[rows.reason], "component": component,
-                "max_posterior": max_post, "posterior": posterior}
+        if kept.all():
+            return {"line": rows.line, "row_group": groups.index,
+                    **_row_entries(rows, groups.first, post_kept)}
+        excluded = np.flatnonzero(~kept)
+        others = group_rows(rows.value[excluded], follow=[rows.reason[excluded]])
+        row_group = np.empty(len(rows), dtype=np.int64 if groups.size + others.size > 2**31 - 2 else np.int32)
+        row_group[kept] = groups.index
+        row_group[excluded] = others.index + groups.size
+        source = np.concatenate([np.flatnonzero(kept)[groups.first], excluded[others.first]])
+        return {"line": rows.line, "row_group": row_group, **_row_entries(rows, source, post_kept)}
 
     # ------------------------------------------------------------ save / load
     def to_dict(self) -> dict:
@@ -520,6 +571,29 @@ class OpenedAnalysis:
 
     analysis: Analysis
     source_changed: bool
+
+
+def _row_entries(rows, source, kept_post) -> dict:
+    """Value, status, component and posteriors of the rows ``source`` (all rows when None).
+
+    ``kept_post`` holds the posteriors of the kept rows among them, in order.
+    """
+    kept = rows.kept if source is None else rows.kept[source]
+    if kept.all():
+        posterior = kept_post
+    else:
+        posterior = np.full((kept.size, kept_post.shape[1]), np.nan)
+        posterior[kept] = kept_post
+    best = np.argmax(kept_post, axis=1)
+    component = np.zeros(kept.size, dtype=np.int64)
+    component[kept] = best + 1
+    max_post = np.full(kept.size, np.nan)
+    max_post[kept] = np.take_along_axis(kept_post, best[:, None], axis=1)[:, 0]
+    reason = rows.reason if source is None else rows.reason[source]
+    words = np.array([rows.reason_words(code) for code in range(int(reason.max(initial=0)) + 1)], dtype=object)
+    return {"value": rows.value if source is None else rows.value[source], "kept": kept,
+            "reason": words[reason], "component": component, "max_posterior": max_post,
+            "posterior": posterior}
 
 
 def _interval_ends(values, given: dict):

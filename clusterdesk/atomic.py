@@ -3,6 +3,11 @@
 An existing file is never left half-written: if anything fails before the
 rename (an exception while producing the content, a full disk), the old file
 stays as it was and the temporary file is removed.
+
+Replacing a large file makes the rename wait while the system frees the old
+file's blocks (most of a second for a gigabyte on a slow disk). On POSIX
+systems the old file is therefore held open across the rename and let go on
+a helper thread, where that freeing then happens.
 """
 
 from __future__ import annotations
@@ -10,9 +15,32 @@ from __future__ import annotations
 import contextlib
 import os
 import tempfile
+import threading
 from pathlib import Path
 
-__all__ = ["atomic_open", "write_text_atomic", "write_bytes_atomic"]
+__all__ = ["atomic_open", "write_text_atomic", "write_bytes_atomic", "RELEASE_BEHIND_BYTES"]
+
+#: Replaced files at least this large are let go on a helper thread.
+RELEASE_BEHIND_BYTES = 64 << 20
+
+
+def _hold_replaced(path: Path):
+    """An open descriptor of the large file about to be replaced (POSIX), or None."""
+    if os.name != "posix":
+        return None
+    try:
+        if os.stat(path).st_size < RELEASE_BEHIND_BYTES:
+            return None
+        return os.open(path, os.O_RDONLY)
+    except OSError:  # no such file, or not readable: nothing to hold
+        return None
+
+
+def _release_behind(fd: int) -> threading.Thread:
+    """Close ``fd`` on a helper thread (returned, started): the last close of a replaced file frees its blocks."""
+    thread = threading.Thread(target=os.close, args=(fd,), name="clusterdesk-release", daemon=True)
+    thread.start()
+    return thread
 
 
 @contextlib.contextmanager
@@ -46,7 +74,12 @@ def atomic_open(path, mode: str = "w", *, encoding: str | None = "utf-8", newlin
             yield handle
             handle.flush()
             os.fsync(handle.fileno())
-        os.replace(tmp, path)
+        held = _hold_replaced(path)
+        try:
+            os.replace(tmp, path)
+        finally:
+            if held is not None:
+                _release_behind(held)
     except BaseException:
         with contextlib.suppress(OSError):
             os.unlink(tmp)

@@ -53,6 +53,25 @@ def test_choice_drives_the_chosen_model_and_assignments(lake):
     assert np.array_equal(table["component"][kept], expected)
 
 
+@pytest.mark.parametrize("treatment", ["exact", "intervals"])
+def test_posteriors_and_summary_by_distinct_value_are_those_of_the_rows(lake, treatment):
+    # Reference: the same analysis row by row (every kept value's posterior, every row in the summary).
+    analysis = Analysis.from_file(lake, DataChoice(column="length_mm"),
+                                  ScanSettings(kmin=2, kmax=2, restarts=3, seed=3, treatment=treatment))
+    analysis.run_scan()
+    every = analysis.posterior()
+    rows = np.array([5, 0, 17, 5])
+    np.testing.assert_array_equal(analysis.posterior(rows=rows), every[rows])
+    groups = analysis.value_groups()
+    values = analysis.measurements.values
+    assert groups.size == np.unique(values).size < values.size  # lengths recorded to 1 mm repeat
+    np.testing.assert_array_equal(every, every[groups.first][groups.index])
+    by_value, by_row = analysis.classification(groups=groups), analysis.classification()
+    np.testing.assert_array_equal(by_value.assigned_counts, by_row.assigned_counts)
+    np.testing.assert_array_equal(by_value.confident_share_by_component, by_row.confident_share_by_component)
+    assert by_value.confident_share == by_row.confident_share
+
+
 def test_save_and_reopen_reproduces_the_numbers(lake, tmp_path):
     analysis = Analysis.from_file(lake, settings=SETTINGS)
     analysis.run_scan()

@@ -45,6 +45,9 @@ class ClassificationSummary:
         Component with the largest posterior (0 = lowest mean).
     confident_share : float
         Share of rows (weighted by counts) assigned with a posterior >= ``threshold``.
+    confident_share_by_component : ndarray, shape (k,)
+        The same share among the rows assigned to each component (NaN for a
+        component with none).
     threshold : float
     assigned_counts : ndarray, shape (k,)
         Rows (weighted by counts) assigned to each component.
@@ -58,6 +61,7 @@ class ClassificationSummary:
     posterior: np.ndarray
     assigned: np.ndarray
     confident_share: float
+    confident_share_by_component: np.ndarray
     threshold: float
     assigned_counts: np.ndarray
     misclassification: np.ndarray
@@ -202,10 +206,14 @@ def classification_summary(mixture: Mixture, values, counts=None, *,
     for array in (posterior, assigned):
         array.setflags(write=False)
     assigned_counts = np.bincount(assigned, weights=c, minlength=mixture.k)
-    assigned_counts.setflags(write=False)
-    rates.setflags(write=False)
+    confident_counts = np.bincount(assigned, weights=c * confident, minlength=mixture.k)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        by_component = np.where(assigned_counts > 0, confident_counts / assigned_counts, np.nan)
+    for array in (assigned_counts, by_component, rates):
+        array.setflags(write=False)
     return ClassificationSummary(
         posterior=posterior, assigned=assigned,
-        confident_share=float(c @ confident / c.sum()), threshold=float(threshold),
+        confident_share=float(c @ confident / c.sum()), confident_share_by_component=by_component,
+        threshold=float(threshold),
         assigned_counts=assigned_counts, misclassification=rates,
         overall_misclassification=float(mixture.weights @ rates))

@@ -16,8 +16,8 @@ from ..atomic import write_text_atomic
 from .assignments_csv import assignment_header, write_assignments_csv
 from .csvfile import write_csv
 
-__all__ = ["Table", "ranking_table", "treatment_words", "treatment_dict", "components_table", "assignment_table", "summary_dict",
-           "write_tables", "CAUTION"]
+__all__ = ["Table", "ranking_table", "treatment_words", "treatment_dict", "components_table",
+           "classification_of_values", "assignment_table", "summary_dict", "write_tables", "CAUTION"]
 
 #: The caution shown wherever cut points are shown.
 CAUTION = ("A fitted cut point is a statistical estimate from one sample, not a validated "
@@ -66,7 +66,7 @@ def treatment_dict(scan) -> dict:
     return {**scan.treatment.as_dict(), "description": treatment_words(scan)}
 
 
-def components_table(analysis, *, posterior=None) -> Table:
+def components_table(analysis, *, classification=None) -> Table:
     """One row per component of the chosen model.
 
     Weight, mean, standard deviation and the cut point to the next component
@@ -75,12 +75,12 @@ def components_table(analysis, *, posterior=None) -> Table:
     expected misclassification rate; bootstrap intervals and standard errors
     when they have been estimated; under a log scale the geometric mean, the
     multiplicative spread and the cut point on the original scale.
-    ``posterior`` (n_kept, k), when given, is ``analysis.posterior()`` computed once by the caller.
+    ``classification``, when given, is :func:`classification_of_values` computed once by the caller.
     """
     model = analysis.chosen
     mix = model.mixture
     scale = analysis.measurements.scale
-    summary = analysis.classification(posterior=posterior)
+    summary = classification_of_values(analysis) if classification is None else classification
     cuts = np.append(mix.cut_points(), np.nan)
     boot = analysis.intervals
     header = ["component", "scale", "weight", "mean", "sd", "count_assigned",
@@ -90,12 +90,10 @@ def components_table(analysis, *, posterior=None) -> Table:
                    for end in ("lower", "upper", "se")]
     if scale in _BACK:
         header += ["geometric_mean", "multiplicative_spread", "cut_to_next_original_scale"]
-    counts = analysis.fit_input()[1]
-    confident = _confident_share_by_component(summary, counts)
     rows = []
     for j in range(mix.k):
         row = [j + 1, scale, mix.weights[j], mix.means[j], mix.sds[j],
-               float(summary.assigned_counts[j]), confident[j],
+               float(summary.assigned_counts[j]), summary.confident_share_by_component[j],
                float(summary.misclassification[j]), cuts[j]]
         if boot is not None:
             row += _interval_cells(boot, j)
@@ -106,15 +104,13 @@ def components_table(analysis, *, posterior=None) -> Table:
     return Table(tuple(header), rows)
 
 
-def _confident_share_by_component(summary, counts) -> np.ndarray:
-    """Share of each component's assigned rows whose posterior is >= the threshold."""
-    k = summary.posterior.shape[1]
-    top = summary.posterior.max(axis=1)
-    weights = np.ones(top.size) if counts is None else np.asarray(counts, dtype=float)
-    sure = np.bincount(summary.assigned, weights=weights * (top >= summary.threshold), minlength=k)
-    total = np.bincount(summary.assigned, weights=weights, minlength=k)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        return np.where(total > 0, sure / total, np.nan)
+def classification_of_values(analysis):
+    """The chosen model's classification summary, computed once per distinct kept value.
+
+    The shares, counts and rates are those of the row-by-row summary
+    (:meth:`clusterdesk.analysis.Analysis.classification`).
+    """
+    return analysis.classification(groups=analysis.value_groups())
 
 
 def _interval_cells(boot, j) -> list:
@@ -147,10 +143,10 @@ def _assignment_rows(a, block: int = 1 << 16):
             yield [line, value, reason, component if kept else None, top, *posterior]
 
 
-def summary_dict(analysis, *, posterior=None) -> dict:
+def summary_dict(analysis, *, classification=None) -> dict:
     """Settings, source, cleaning, ranking head and the chosen model, as JSON types.
 
-    ``posterior`` (n_kept, k), when given, is ``analysis.posterior()`` computed once by the caller.
+    ``classification``, when given, is :func:`classification_of_values` computed once by the caller.
     """
     m = analysis.measurements
     scan = analysis.scan
@@ -183,14 +179,14 @@ def summary_dict(analysis, *, posterior=None) -> dict:
                    "means": mix.means.tolist(), "sds": mix.sds.tolist(),
                    "cut_points": [None if np.isnan(c) else float(c) for c in mix.cut_points()],
                    "notes": list(chosen.notes)},
-        "classification": _classification_dict(analysis, posterior),
+        "classification": _classification_dict(
+            classification_of_values(analysis) if classification is None else classification),
         "intervals": _intervals_dict(analysis.intervals),
         "caution": CAUTION,
     }
 
 
-def _classification_dict(analysis, posterior=None) -> dict:
-    summary = analysis.classification(posterior=posterior)
+def _classification_dict(summary) -> dict:
     return {"share_assigned_with_posterior_at_least": summary.threshold,
             "confident_share": summary.confident_share,
             "assigned_counts": summary.assigned_counts.tolist(),
@@ -214,9 +210,10 @@ def _intervals_dict(boot):
 def write_tables(analysis, folder) -> dict:
     """Write ranking.csv, components.csv, assignments.csv and summary.json into a folder.
 
-    The posterior probabilities of the chosen model are computed once for all
-    four; the assignment table is formatted a block of rows at a time
-    (:func:`clusterdesk.report.assignments_csv.write_assignments_csv`).
+    The kept values are grouped by value (:meth:`clusterdesk.analysis.Analysis.value_groups`);
+    the posterior probabilities of the chosen model are computed once per
+    distinct value for all four; the assignment table shares the text of
+    each distinct row (:func:`clusterdesk.report.assignments_csv.write_assignments_csv`).
 
     Returns
     -------
@@ -225,13 +222,15 @@ def write_tables(analysis, folder) -> dict:
     import json
 
     folder = Path(folder)
-    posterior = analysis.posterior()
+    groups = analysis.value_groups()
+    posterior = analysis.posterior(rows=groups.first)
+    summary = analysis.classification(posterior=posterior, groups=groups)
     out = {}
     for name, table in (("ranking", ranking_table(analysis.scan)),
-                        ("components", components_table(analysis, posterior=posterior))):
+                        ("components", components_table(analysis, classification=summary))):
         out[name] = write_csv(folder / f"{name}.csv", table.header, table.rows)
     out["assignments"] = write_assignments_csv(folder / "assignments.csv",
-                                               analysis.assignments(posterior=posterior))
+                                               analysis.assignments(posterior=posterior, groups=groups))
     out["summary"] = write_text_atomic(folder / "summary.json",
-                                       json.dumps(summary_dict(analysis, posterior=posterior), indent=2) + "\n")
+                                       json.dumps(summary_dict(analysis, classification=summary), indent=2) + "\n")
     return out

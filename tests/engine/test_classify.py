@@ -115,6 +115,10 @@ def test_summary_on_rows_follows_the_posteriors():
     assert summary.confident_share == pytest.approx(counts[confident].sum() / counts.sum())
     np.testing.assert_array_equal(summary.assigned_counts,
                                   [counts[summary.assigned == j].sum() for j in range(3)])
+    for j in range(3):
+        mine = summary.assigned == j
+        assert summary.confident_share_by_component[j] == pytest.approx(
+            counts[mine & confident].sum() / counts[mine].sum())
     assert summary.overall_misclassification == pytest.approx(
         float(mixture.weights @ summary.misclassification))
     with pytest.raises(ValueError):

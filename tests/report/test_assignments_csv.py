@@ -3,7 +3,9 @@
 Two references: the per-row route (the csv module's writer over one list of
 cells per row, as the table was written before) for the exact bytes, and
 Python's csv reader with ``float()`` for what the cells say (Python's float
-repr is the shortest text that reads back to the same float).
+repr is the shortest text that reads back to the same float). Rows given as
+entries shared by index (distinct values) are checked against the per-row
+writer over the rows spelt out one by one.
 """
 
 from __future__ import annotations
@@ -16,6 +18,7 @@ import numpy as np
 import pytest
 
 from clusterdesk.analysis import Analysis, DataChoice, ScanSettings
+from clusterdesk.engine.distinct import group_rows
 from clusterdesk.report.assignments_csv import write_assignments_csv
 from clusterdesk.report.csvfile import neutralise, write_csv
 from clusterdesk.report.tables import _assignment_rows, assignment_table, write_tables
@@ -71,6 +74,52 @@ def test_block_writer_gives_the_bytes_of_the_per_row_writer(tmp_path, rng, block
     per_row = write_csv(tmp_path / "per_row.csv", header, _assignment_rows(a))
     blocks = write_assignments_csv(tmp_path / "blocks.csv", a, block=block)
     assert blocks.read_bytes() == per_row.read_bytes()
+
+
+def _grouped(a: dict, lines=None) -> dict:
+    """The same rows as shared entries: one per distinct (value, status, posteriors), and each row's entry."""
+    groups = group_rows(a["value"], follow=[a["posterior"][:, j] for j in range(a["posterior"].shape[1])]
+                        + [a["max_posterior"], a["component"], np.unique(a["reason"], return_inverse=True)[1]])
+    entries = {key: column[groups.first] for key, column in a.items() if key != "line"}
+    return {"line": a["line"] if lines is None else lines, "row_group": groups.index, **entries}
+
+
+def _spelt_out(grouped: dict) -> dict:
+    """Every row with its entry's cells (the per-row layout)."""
+    return {key: (column if key == "line" else column[grouped["row_group"]])
+            for key, column in grouped.items() if key != "row_group"}
+
+
+ODD_LINES = np.array([0, 1, 9, 10, 99, 9_999, 10_000, 10_001, 99_999_999, 100_000_000, 1_234_567_890])
+
+
+@pytest.mark.parametrize("block", [1, 7, 64, 10_000])
+@pytest.mark.parametrize("lines", ["file order", "odd numbers"])
+@pytest.mark.parametrize("kind", ["tied", "mostly distinct"])
+def test_shared_entries_give_the_bytes_of_the_per_row_writer(tmp_path, rng, block, lines, kind):
+    a = _tied_assignments(rng) if kind == "tied" else _awkward_assignments(rng)
+    if lines == "odd numbers":  # every count of digits, zero and the ten-thousands boundaries
+        numbers = np.sort(np.concatenate([ODD_LINES, rng.integers(0, 10**11, a["line"].size - ODD_LINES.size)]))
+        a["line"] = numbers
+    grouped = _grouped(a)
+    shared = grouped["value"].size < a["line"].size // 2  # else each block formats its own rows' entries
+    assert shared == (kind == "tied")
+    header = ("line", "value", "status", "component", "max_posterior", "posterior_1", "posterior_2",
+              "posterior_3")
+    per_row = write_csv(tmp_path / "per_row.csv", header, _assignment_rows(_spelt_out(grouped)))
+    shared = write_assignments_csv(tmp_path / "shared.csv", grouped, block=block)
+    assert shared.read_bytes() == per_row.read_bytes()
+
+
+def test_entries_with_a_zero_byte_are_written_row_by_row_with_the_same_bytes(tmp_path, rng):
+    a = _tied_assignments(rng)
+    a["reason"] = np.where(a["kept"], "kept", "odd\0reason").astype(object)
+    grouped = _grouped(a)
+    header = ("line", "value", "status", "component", "max_posterior", "posterior_1", "posterior_2",
+              "posterior_3")
+    per_row = write_csv(tmp_path / "per_row.csv", header, _assignment_rows(_spelt_out(grouped)))
+    assert write_assignments_csv(tmp_path / "shared.csv", grouped).read_bytes() == per_row.read_bytes()
+    assert b"odd\0reason" in per_row.read_bytes()
 
 
 def test_cells_read_back_with_the_csv_module(tmp_path, rng):

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import csv
+import os
 
 import numpy as np
 import pytest
@@ -56,3 +57,26 @@ def test_atomic_open_binary(tmp_path):
     with atomic_open(tmp_path / "b.bin", "wb") as handle:
         handle.write(b"\x00\x01")
     assert (tmp_path / "b.bin").read_bytes() == b"\x00\x01"
+
+
+def test_replacing_a_large_file_lets_the_old_one_go_on_a_helper_thread(tmp_path, monkeypatch):
+    # The old file is held open across the rename and closed on a helper thread (POSIX only).
+    from clusterdesk import atomic
+
+    monkeypatch.setattr(atomic, "RELEASE_BEHIND_BYTES", 4)
+    released = []
+    real_release = atomic._release_behind
+    monkeypatch.setattr(atomic, "_release_behind", lambda fd: released.append((fd, real_release(fd))))
+    target = tmp_path / "big.csv"
+    write_text_atomic(target, "old content\n")
+    assert not released  # nothing was replaced
+    write_text_atomic(target, "new\n")
+    assert target.read_text(encoding="utf-8") == "new\n"
+    assert [p.name for p in tmp_path.iterdir()] == ["big.csv"]
+    if os.name != "posix":
+        assert not released
+        return
+    (fd, thread), = released
+    thread.join(10.0)
+    with pytest.raises(OSError):
+        os.fstat(fd)  # closed by the helper

@@ -1,0 +1,36 @@
+"""Writing with the data put on disk by a helper thread: every byte in order, the helper's errors raised."""
+
+from __future__ import annotations
+
+import threading
+
+import numpy as np
+import pytest
+
+from clusterdesk.report import sync_behind
+from clusterdesk.report.sync_behind import SyncBehind
+
+
+def test_every_block_is_written_in_order(tmp_path, rng):
+    blocks = [rng.integers(0, 256, size, dtype=np.uint8) for size in rng.integers(0, 5_000, 60)]
+    path = tmp_path / "blocks.bin"
+    with open(path, "wb") as handle, SyncBehind(handle, every=10_000) as out:  # a sync every few blocks
+        for block in blocks:
+            out.write(block)
+        out.write(b"tail")
+    assert path.read_bytes() == b"".join(b.tobytes() for b in blocks) + b"tail"
+
+
+def test_a_failed_sync_is_raised_in_the_writing_thread(tmp_path, monkeypatch):
+    tried = threading.Event()
+
+    def failing_sync(fd):
+        tried.set()
+        raise OSError(28, "No space left on device (simulated)")
+
+    monkeypatch.setattr(sync_behind, "_sync", failing_sync)
+    with open(tmp_path / "full.bin", "wb") as handle:
+        with pytest.raises(OSError, match="simulated"):
+            with SyncBehind(handle, every=1) as out:
+                out.write(b"abc")
+                assert tried.wait(10.0)

@@ -33,7 +33,11 @@ def test_values_match_openpyxl(tmp_path, workbook):
     rng = np.random.default_rng(11)
     values = rng.normal(30, 4, 200).round(2).tolist()
     path = workbook(tmp_path / "lengths.xlsx", {"catch": [["length_cm", "station"]] + [[v, "A"] for v in values]})
-    reference = [row[0] for row in openpyxl.load_workbook(path, read_only=True).active.iter_rows(min_row=2, values_only=True)]
+    book = openpyxl.load_workbook(path, read_only=True)  # read-only books keep the file open until closed
+    try:
+        reference = [row[0] for row in book.active.iter_rows(min_row=2, values_only=True)]
+    finally:
+        book.close()
     m = read_measurements(path)
     assert m.values.tolist() == reference == values
     assert m.format.reader == "xlsx" and m.format.sheet == "catch" and m.format.encoding is None

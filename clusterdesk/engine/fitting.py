@@ -30,7 +30,7 @@ import numpy as np
 from . import criteria
 from ..errors import Cancelled
 from .em import EMSettings, run_batch
-from .newton import newton_polish
+from .newton import newton_polish_batch
 from .outliers import far_out_fences, held_values, outlier_note
 from .mixture import Mixture
 from .resolution import detect_grid_step
@@ -304,7 +304,7 @@ def _screened_starts(x, c, k, shared, rng, var_floor, settings, cancel):
 
 
 def _run(x, c, data, k, shared, starts, settings, cancel, var_floor=None, max_steps=None):
-    """EM on every start side by side, then certified Newton steps on each."""
+    """EM on every start side by side, then certified Newton steps on all of them side by side."""
     floor = data.var_floor if var_floor is None else var_floor
     max_steps = settings.newton_steps if max_steps is None else max_steps
     w0, m0, v0 = starts
@@ -313,14 +313,16 @@ def _run(x, c, data, k, shared, starts, settings, cancel, var_floor=None, max_st
     n = float(c.sum())
     result = run_batch(x, c, w0, m0, v0, n=n, var_floor=floor, shared=shared,
                        settings=settings.em, cancel=cancel)
-    for i in range(result.loglik.size):
-        if cancel is not None and cancel.is_set():
-            raise Cancelled("The fit was cancelled.")
-        if not np.isfinite(result.loglik[i]) or np.any(result.nk[i] < 1e-6 * n):
-            continue  # a dead component: degenerate, nothing to certify
-        end = newton_polish(x, c, result.weights[i], result.means[i], result.variances[i],
-                            shared=shared, var_floor=floor, tol_abs=settings.tol * n,
-                            max_steps=max_steps, cancel=cancel)
+    if cancel is not None and cancel.is_set():
+        raise Cancelled("The fit was cancelled.")
+    # A restart with a dead component is degenerate: nothing to certify.
+    alive = np.flatnonzero(np.isfinite(result.loglik) & np.all(result.nk >= 1e-6 * n, axis=1))
+    ends = newton_polish_batch(x, c, result.weights[alive], result.means[alive], result.variances[alive],
+                               shared=shared, var_floor=floor, tol_abs=settings.tol * n,
+                               max_steps=max_steps, cancel=cancel) if alive.size else []
+    if cancel is not None and cancel.is_set():
+        raise Cancelled("The fit was cancelled.")
+    for i, end in zip(alive, ends):
         if end.loglik >= result.loglik[i]:
             result.weights[i], result.means[i], result.variances[i] = (
                 end.weights, end.means, end.variances)

@@ -15,7 +15,7 @@ import numpy as np
 from . import criteria
 from .fitting import FitSettings, FittedModel, fit_model
 from .outliers import outlier_note
-from .parallel import blas_one_thread, process_workers, run_batches, worker_cancel_token
+from .parallel import blas_one_thread, process_workers, run_batches, start_fork_server, worker_cancel_token
 from .treatment import Treatment, resolve_treatment
 from .validation import check_component_range, check_seed, check_widths
 from ..errors import Cancelled, InputError
@@ -174,14 +174,16 @@ def scan_models(values, *, counts=None, kmin=1, kmax=6, widths="separate", resta
     -------
     ScanResult
     """
-    sample, used = resolve_treatment(values, counts, treatment=treatment, resolution=resolution,
-                                     bounds=bounds)
     variants = check_widths(widths)
-    check_component_range(kmin, kmax, sample)
     check_seed(seed)
     settings = _with_restarts(settings, restarts)
-    jobs = [(w, k) for w in variants for k in range(kmin, kmax + 1)]
     workers = process_workers(workers)
+    if workers > 1 and _length(values) > settings.bin_above:
+        start_fork_server(__name__)  # likely fitted in processes: their server imports while we prepare
+    sample, used = resolve_treatment(values, counts, treatment=treatment, resolution=resolution,
+                                     bounds=bounds)
+    check_component_range(kmin, kmax, sample)
+    jobs = [(w, k) for w in variants for k in range(kmin, kmax + 1)]
     if workers > 1 and len(jobs) > 1 and not sample.is_intervals and sample.n_distinct > settings.bin_above:
         models = _fit_in_processes(sample, jobs, seed, settings, workers, progress, cancel)
     else:
@@ -197,6 +199,14 @@ def scan_models(values, *, counts=None, kmin=1, kmax=6, widths="separate", resta
     notes = (outlier_note(suspects),) if suspects else ()
     return ScanResult(models=tuple(models), ranking=rank_models(models), n=sample.n, seed=int(seed),
                       treatment=used, notes=notes, suspect_values=suspects)
+
+
+def _length(values) -> int:
+    """How many values were given (0 when that is not known without converting them)."""
+    try:
+        return len(values)
+    except TypeError:
+        return 0
 
 
 def _fit_in_processes(sample, jobs, seed, settings, workers, progress, cancel):

@@ -172,7 +172,7 @@ def _auto_choice(sample, tally, step, bounds, censored):
     if tally:
         return True, ("a value/count table: each count is a class of width "
                       f"{width:.4g}, so each value is an interval.")
-    spread = _robust_sd(sample.values, sample.counts)
+    spread = _robust_sd(*_tied(sample))  # on the distinct values: 10^7 readings cost ~0.4 s otherwise
     share = width / spread if spread > 0 else np.inf
     if share >= COARSE_FRACTION:
         return True, (f"the values lie on a grid (intervals {width:.4g} wide, {100 * share:.2g} % "

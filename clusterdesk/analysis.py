@@ -221,19 +221,21 @@ class Analysis:
         """Limits (analysis scale), side (-1 below, +1 above) and counts of detection-limit rows."""
         m = self._need_measurements()
         rows = m.rows
-        side = np.where(rows.reason == R.BELOW_LIMIT, -1, np.where(rows.reason == R.ABOVE_LIMIT, 1, 0))
-        limits = rows.value
-        usable = (side != 0) & np.isfinite(limits)
+        # Only the (usually few) limit rows are looked at: arrays over every row cost ~0.3 s at 10^7.
+        at = np.flatnonzero((rows.reason == R.BELOW_LIMIT) | (rows.reason == R.ABOVE_LIMIT))
+        side = np.where(rows.reason[at] == R.BELOW_LIMIT, -1, 1)
+        limits = rows.value[at]
+        usable = np.isfinite(limits)
         if m.scale != "linear":
             usable &= limits > 0
         if rows.count is not None:
-            usable &= np.isfinite(rows.count) & (rows.count > 0)
+            usable &= np.isfinite(rows.count[at]) & (rows.count[at] > 0)
         limits = limits[usable]
         if m.scale == "ln":
             limits = np.log(limits)
         elif m.scale == "log10":
             limits = np.log10(limits)
-        counts = np.ones(limits.size) if rows.count is None else rows.count[usable]
+        counts = np.ones(limits.size) if rows.count is None else rows.count[at][usable]
         return limits, side[usable], counts
 
     def compute_scan(self, settings: ScanSettings | None = None, progress=None, cancel=None) -> ScanResult:

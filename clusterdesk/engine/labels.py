@@ -16,7 +16,10 @@ themselves,
 computed on the replicate's own values and counts, and the labelling that
 maximises the total agreement ``sum_i A_{i, pi(i)}`` is found exactly by the
 Hungarian method (scipy.optimize.linear_sum_assignment; Kuhn 1955, Naval
-Research Logistics Quarterly 2:83-97).  Unlike distances between parameters,
+Research Logistics Quarterly 2:83-97), or for up to six components by trying
+every labelling (at most 720), which gives the same optimum without importing
+scipy.optimize (about 0.6 s on the machines we measure on, paid once per
+process).  Unlike distances between parameters,
 this needs no choice of scale for means against widths against weights, and
 it tells two components with equal means apart by the values each one
 explains (the centre against the tails).
@@ -24,11 +27,15 @@ explains (the centre against the tails).
 
 from __future__ import annotations
 
+import itertools
+
 import numpy as np
 
 __all__ = ["posteriors", "posterior_agreement", "match_to_reference"]
 
 _LOG_2PI = float(np.log(2.0 * np.pi))
+#: Up to this many components every labelling is tried (k! of them).
+_EXHAUSTIVE_UP_TO = 6
 
 
 def posteriors(x, weights, means, variances) -> np.ndarray:
@@ -99,9 +106,14 @@ def match_to_reference(agreement) -> np.ndarray:
         component that plays its part: ``params[b, order[b]]`` puts a
         replicate's components in the reference's order.
     """
+    agreement = np.asarray(agreement, dtype=np.float64)
+    k = agreement.shape[1]
+    if k <= _EXHAUSTIVE_UP_TO:
+        labellings = np.array(list(itertools.permutations(range(k))), dtype=np.int64)  # (k!, k)
+        totals = agreement[:, np.arange(k), labellings].sum(axis=2)                  # (r, k!)
+        return labellings[np.argmax(totals, axis=1)]
     from scipy.optimize import linear_sum_assignment  # imported here: scipy.optimize is slow to import
 
-    agreement = np.asarray(agreement, dtype=np.float64)
     order = np.empty(agreement.shape[:2], dtype=np.int64)
     for b, table in enumerate(agreement):
         _, order[b] = linear_sum_assignment(table, maximize=True)

@@ -156,6 +156,21 @@ def test_matching_recovers_a_known_permutation():
     np.testing.assert_array_equal(np.take_along_axis(shuffles, order, axis=1), np.tile(np.arange(3), (20, 1)))
 
 
+@pytest.mark.parametrize("k", [1, 2, 4, 6, 7])
+def test_matching_finds_the_assignment_optimum_of_scipy(k):
+    # Reference: scipy.optimize.linear_sum_assignment (maximize=True) on random
+    # agreement tables; up to six components the matcher tries every labelling
+    # instead, beyond that it calls scipy itself.
+    from scipy.optimize import linear_sum_assignment
+
+    rng = np.random.default_rng(30 + k)
+    tables = rng.uniform(0.0, 100.0, size=(40, k, k))
+    order = match_to_reference(tables)
+    for table, got in zip(tables, order):
+        _, best = linear_sum_assignment(table, maximize=True)
+        np.testing.assert_array_equal(got, best)
+
+
 def test_agreement_matches_a_direct_sum_of_posteriors():
     # Independent computation with Mixture.posterior.
     ref = Mixture([0.6, 0.4], [0.0, 2.0], [1.0, 0.7])

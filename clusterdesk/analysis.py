@@ -19,10 +19,12 @@ import numpy as np
 
 from ._version import __version__
 from .api import bootstrap as run_bootstrap
-from .api import scan as run_scan
+from .engine.bootstrap import bootstrap_model
 from .engine.fitcheck import goodness_of_fit
-from .engine.fitting import FittedModel
-from .engine.scan import ScanResult
+from .engine.fitting import FitSettings, FittedModel
+from .engine.parallel import process_workers, start_fork_server
+from .engine.scan import ScanResult, scan_models
+from .engine.treatment import resolve_treatment
 from .atomic import write_text_atomic
 from .errors import FileFormatError, InputError
 from .io import Measurements, read_measurements
@@ -130,6 +132,8 @@ class Analysis:
     scan: ScanResult | None = None
     choice: tuple | None = None
     interval_results: dict = field(default_factory=dict, repr=False)
+    # ((measurements, treatment, resolution), (Sample, Treatment)): the last sample prepared for the engine
+    _prepared: tuple | None = field(default=None, init=False, repr=False, compare=False)
 
     # ----------------------------------------------------------------- data in
     @classmethod
@@ -241,9 +245,29 @@ class Analysis:
     def compute_scan(self, settings: ScanSettings | None = None, progress=None, cancel=None) -> ScanResult:
         """Run the scan and return it, without changing the analysis."""
         s = self.settings if settings is None else settings
-        return run_scan(kmin=s.kmin, kmax=s.kmax, widths=s.widths, restarts=s.restarts, seed=s.seed,
-                        progress=progress, cancel=cancel, treatment=s.treatment,
-                        **self.likelihood_input(s))
+        if (self.measurements is not None and self.measurements.fit_values.size > FitSettings.bin_above
+                and process_workers(None) > 1):
+            # Probably fitted in worker processes: their server's imports overlap the preparation.
+            start_fork_server(scan_models.__module__)
+        return scan_models(None, kmin=s.kmin, kmax=s.kmax, widths=s.widths, restarts=s.restarts,
+                           seed=s.seed, progress=progress, cancel=cancel, prepared=self.prepared_sample(s))
+
+    def prepared_sample(self, settings: ScanSettings | None = None):
+        """The kept values prepared for the engine under these settings: (Sample, Treatment).
+
+        Validated, sorted, ties gathered and the treatment decided, as
+        :func:`clusterdesk.engine.treatment.resolve_treatment` does; kept for
+        the next call with the same data and treatment settings (preparing
+        10^7 values takes a few tenths of a second), so the scan and the
+        intervals of its models share one preparation.
+        """
+        s = self.settings if settings is None else settings
+        m = self._need_measurements()
+        key = (s.treatment, s.resolution)
+        if self._prepared is None or self._prepared[0][0] is not m or self._prepared[0][1:] != key:
+            given = self.likelihood_input(s)
+            self._prepared = ((m, *key), resolve_treatment(treatment=s.treatment, **given))
+        return self._prepared[1]
 
     def apply_scan(self, result: ScanResult, settings: ScanSettings | None = None) -> None:
         """Make a computed scan the analysis's scan; the choice returns to the best model."""
@@ -296,6 +320,11 @@ class Analysis:
         BootstrapResult
         """
         seed = self.settings.seed if seed is None else seed
+        sample, used = self.prepared_sample()
+        if self.chosen.likelihood == "exact" and used.used == "exact":
+            # The sample the scan fitted: no second preparation of the values.
+            return bootstrap_model(sample, self.chosen, replicates=replicates, method=method,
+                                   level=level, seed=seed, progress=progress, cancel=cancel)
         given = self.likelihood_input()
         if self.chosen.likelihood == "exact":
             given = {"values": given["values"], "counts": given["counts"]}

@@ -33,6 +33,27 @@ def test_scan_equals_the_engine_on_the_kept_values(lake):
     assert analysis.chosen.k == direct.best.k
 
 
+def test_intervals_equal_the_api_bootstrap_on_the_kept_values(lake):
+    # The analysis prepares its sample once and hands it to the scan and the
+    # bootstrap; the numbers must be those of the public functions given the values.
+    analysis = Analysis.from_file(lake, DataChoice(column="length_mm"), SETTINGS)
+    analysis.run_scan()
+    got = analysis.compute_intervals(replicates=40, seed=5)
+    direct = clusterdesk.bootstrap(analysis.measurements.values, analysis.chosen, replicates=40, seed=5)
+    np.testing.assert_array_equal(got.means, direct.means)
+    np.testing.assert_array_equal(got.mean_interval, direct.mean_interval)
+
+
+def test_prepared_sample_is_reused_until_the_treatment_changes(lake):
+    analysis = Analysis.from_file(lake, DataChoice(column="length_mm"), SETTINGS)
+    first = analysis.prepared_sample()
+    assert analysis.prepared_sample() is first
+    exact = analysis.prepared_sample(ScanSettings(treatment="exact"))
+    assert exact is not first and exact[1].used == "exact"
+    analysis.load_file(lake)  # new measurements: prepared again
+    assert analysis.prepared_sample() is not first
+
+
 def test_compute_does_not_change_the_analysis_until_applied(lake):
     analysis = Analysis.from_file(lake, settings=SETTINGS)
     result = analysis.compute_scan()

@@ -48,7 +48,7 @@ from .validation import Sample, weighted_mean_sd
 from ..errors import InputError
 
 __all__ = ["prepare_intervals", "log_interval_mass", "interval_e_step", "interval_e_step_on",
-           "interval_loglik", "interval_posterior", "fit_intervals", "fit_bins", "histogram_bins", "interval_plan",
+           "interval_loglik", "interval_posterior", "fit_intervals", "histogram_bins", "interval_plan",
            "INTERVAL_MAX_ITER"]
 
 _LOG_SQRT_2PI = 0.5 * math.log(2.0 * math.pi)
@@ -328,38 +328,6 @@ def fit_intervals(sample: Sample, k: int, widths: str, rng: np.random.Generator,
                    collapsed=bool(degenerate[best]))
 
 
-def fit_bins(lower, upper, counts, k: int, shared: bool, rng: np.random.Generator, var_floor: float,
-             settings: FitSettings = FitSettings(), cancel=None):
-    """All restarts of one model on histogram bins, by the interval likelihood.
-
-    The histogram stage of large samples (:mod:`.fitting`): the bins are
-    exact intervals of the values, so this stage has no Sheppard bias and its
-    optimum is close to that of the raw values, at a cost per iteration of
-    O(bins x k) whatever the sample size.
-
-    Parameters
-    ----------
-    lower, upper : ndarray, shape (m,)
-        Edges of the non-empty bins (standardised units), ascending.
-    counts : ndarray, shape (m,)
-        Positive counts of the bins.
-    k : int
-    shared : bool
-    rng : numpy.random.Generator
-    var_floor : float
-    settings : FitSettings
-    cancel : object with ``is_set()``, optional
-
-    Returns
-    -------
-    BatchResult
-        One row per restart kept after screening (parameters in the bins' units),
-        run to the loose tolerance of ``settings.em``: the raw values polish it.
-    """
-    data = _IntervalData(0.5 * (lower + upper), counts, lower, upper, var_floor)
-    return _restarts(data, k, shared, rng, settings, cancel, em=settings.em)
-
-
 def histogram_bins(x, c, bins: int, step: float | None = None, width: float | None = None):
     """Non-empty bins of a fine histogram of sorted values, aligned to their grid.
 
@@ -419,8 +387,7 @@ def _restarts(data, k, shared, rng, settings, cancel, em=None):
     """Screened starts, then EM on all of them side by side.
 
     ``em`` defaults to the final tolerance ``settings.tol`` with
-    :data:`INTERVAL_MAX_ITER`; the histogram stage passes ``settings.em``
-    (its loose tolerance), since the raw values polish its result.
+    :data:`INTERVAL_MAX_ITER`.
     """
     w0, m0, v0 = _screened_starts(data, k, shared, rng, settings, cancel)
     em = EMSettings(tol=settings.tol, max_iter=INTERVAL_MAX_ITER) if em is None else em

@@ -215,14 +215,14 @@ def test_bootstrap_of_an_interval_fit_resamples_the_intervals():
 # --------------------------------------------------- large samples: bins
 def test_binned_stage_agrees_with_the_full_data_fit():
     # Reference: the same model fitted to every raw value (no histogram stage).
-    # The bins are exact intervals of the values, so their interval-likelihood
-    # optimum must already sit within a small fraction of a standard error of
-    # the raw-value optimum (standard errors: sd/sqrt(n w) for a mean and
-    # sd/sqrt(2 n w) for a standard deviation, common practice for separated
-    # components); after the polish on the raw values the log-likelihoods
-    # agree within 1e-6 per observation.
+    # The bins are exact intervals of the values, so the interval-likelihood
+    # optimum of the bins (McLachlan & Jones 1988) must sit within a small
+    # fraction of a standard error of the raw-value optimum (standard errors:
+    # sd/sqrt(n w) for a mean and sd/sqrt(2 n w) for a standard deviation,
+    # common practice for separated components); the histogram stage of the
+    # scan, polished on the raw values, must agree with the full fit within
+    # 1e-6 of log-likelihood per observation.
     from clusterdesk.engine.fitting import fit_model, standardise
-    from clusterdesk.engine.grouped import fit_bins, histogram_bins
     from clusterdesk.engine.validation import prepare_sample
 
     n = 60000
@@ -236,11 +236,10 @@ def test_binned_stage_agrees_with_the_full_data_fit():
     data = standardise(sample, FitSettings())
     lower, upper, counts = histogram_bins(data.x, data.c, FitSettings().bins)
     assert counts.sum() == n
-    stage = fit_bins(lower, upper, counts, 2, False, model_rng(0, 2, "separate"), data.var_floor)
-    best = int(np.argmax(stage.loglik))
-    order = np.argsort(stage.means[best])
-    means = data.center + data.scale * stage.means[best][order]
-    sds = data.scale * np.sqrt(stage.variances[best][order])
+    bins = prepare_intervals(0.5 * (lower + upper), counts, lower, upper)
+    stage = fit_intervals(bins, 2, "separate", model_rng(0, 2, "separate")).mixture  # sorted by mean
+    means = data.center + data.scale * stage.means
+    sds = data.scale * stage.sds
     ref = full.mixture
     se_mean = ref.sds / np.sqrt(n * ref.weights)
     se_sd = ref.sds / np.sqrt(2 * n * ref.weights)

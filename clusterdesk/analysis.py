@@ -11,13 +11,11 @@ results in place.
 
 from __future__ import annotations
 
-import json
-from dataclasses import asdict, dataclass, field
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 
-from ._version import __version__
 from .api import bootstrap as run_bootstrap
 from .engine.bootstrap import bootstrap_model
 from .engine.fitcheck import goodness_of_fit
@@ -25,35 +23,13 @@ from .engine.fitting import FitSettings, FittedModel
 from .engine.parallel import process_workers, start_fork_server
 from .engine.scan import ScanResult, scan_models
 from .engine.treatment import resolve_treatment
-from .atomic import write_text_atomic
-from .errors import FileFormatError, InputError
+from .errors import InputError
 from .io import Measurements, read_measurements
 from .io import reasons as R
-from .saved_layout import check_analysis_file, data_problem, settings_problem, whole_number
+from .analysis_file import (ANALYSIS_SUFFIX, FORMAT_VERSION, OpenedAnalysis, SourceChangedError,
+                            analysis_to_dict, open_analysis, save_analysis)
 
 __all__ = ["DataChoice", "ScanSettings", "Analysis", "ANALYSIS_SUFFIX", "FORMAT_VERSION", "SourceChangedError"]
-
-#: File name ending of saved analyses (JSON inside).
-ANALYSIS_SUFFIX = ".cdesk"
-#: Version of the saved-analysis layout; bumped when the layout changes.
-FORMAT_VERSION = 1
-
-
-class SourceChangedError(InputError):
-    """The source file of a saved analysis is not the one it was saved with (its SHA-256 differs).
-
-    Attributes
-    ----------
-    path : Path
-        The analysis file.
-    source : str
-        The source file it points at.
-    """
-
-    def __init__(self, message: str, path, source: str):
-        super().__init__(message)
-        self.path, self.source = Path(path), source
-
 
 @dataclass(frozen=True)
 class DataChoice:
@@ -491,93 +467,19 @@ class Analysis:
 
     # ------------------------------------------------------------ save / load
     def to_dict(self) -> dict:
-        """Everything needed to reproduce this analysis, as plain JSON types."""
-        m = self._need_measurements()
-        return {
-            "format": "clusterdesk-analysis",
-            "format_version": FORMAT_VERSION,
-            "software_version": __version__,
-            "source": {"path": self.source_path, "sha256": m.sha256, "label": m.source},
-            "data": asdict(self.data),
-            "settings": asdict(self.settings),
-            "choice": list(self.choice) if self.choice else None,
-        }
+        """Everything needed to reproduce this analysis, as plain JSON types (see :mod:`.analysis_file`)."""
+        return analysis_to_dict(self)
 
     def save(self, path) -> Path:
         """Write the analysis as JSON (atomically); the suffix is added when missing."""
-        path = Path(path)
-        if not path.name.endswith(ANALYSIS_SUFFIX):
-            path = path.with_name(path.name + ANALYSIS_SUFFIX)
-        write_text_atomic(path, json.dumps(self.to_dict(), indent=2) + "\n")
-        return path
+        return save_analysis(self, path)
 
     @classmethod
     def open(cls, path, *, rescan: bool = True, accept_changed_source: bool = False, progress=None,
              cancel=None) -> "OpenedAnalysis":
-        """Reopen a saved analysis: re-read its source, redo its scan, restore the choice.
-
-        The scan is deterministic for a given seed, so the numbers are the same
-        as when the analysis was saved, provided the source is unchanged.
-        Opening never writes anything.
-
-        Parameters
-        ----------
-        path : str or Path
-            The ``.cdesk`` file.
-        rescan : bool, default True
-            Redo the scan and restore the chosen model.
-        accept_changed_source : bool, default False
-            Read a source whose contents changed since the analysis was saved
-            (the result says so) instead of refusing.
-        progress, cancel
-            As for :meth:`compute_scan`.
-
-        Raises
-        ------
-        FileFormatError
-            The file is not a saved analysis (truncated, malformed, or from a
-            newer version of ClusterDesk), or its settings or chosen model
-            cannot be used.
-        SourceChangedError
-            Its source file changed since it was saved (and
-            ``accept_changed_source`` is False).
-        InputError
-            Its source file is missing.
-        """
-        path = Path(path)
-        try:
-            check_analysis_file(path)
-            raw = json.loads(path.read_text(encoding="utf-8"))
-        except FileNotFoundError:
-            raise InputError(f"There is no analysis file {path}; check the name and folder.") from None
-        except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
-            raise FileFormatError(f"{path.name} is not a readable ClusterDesk analysis ({exc}): it may be "
-                                  "truncated or not an analysis file; open the data file itself, or an "
-                                  "earlier copy of the analysis.") from None
-        saved = _parse_saved(raw, path)
-        source = saved["source"]["path"]
-        if not source or not Path(source).is_file():
-            raise InputError(f"The source file of {path.name} ({source}) is missing; "
-                             "put it back in place or open the data file itself.")
-        analysis = cls.from_file(source, DataChoice(**saved["data"]), ScanSettings(**saved["settings"]))
-        changed = analysis.measurements.sha256 != saved["source"]["sha256"]
-        if changed and not accept_changed_source:
-            raise SourceChangedError(
-                f"The source file {Path(source).name} changed since {path.name} was saved (its contents "
-                "differ), so the saved results cannot be reproduced; put the original file back, or "
-                "open it anyway to analyse the file as it is now.", path, source)
-        if rescan:
-            analysis.run_scan(progress=progress, cancel=cancel)
-            if saved["choice"]:
-                k, widths = saved["choice"]
-                try:
-                    analysis.choose(k, widths)
-                except InputError:
-                    raise FileFormatError(
-                        f"The chosen model of {path.name} ({k} components, {widths} widths) is not among the "
-                        "models its settings fit; the file was edited or damaged, so open the data file "
-                        "itself instead.") from None
-        return OpenedAnalysis(analysis=analysis, source_changed=changed)
+        """Reopen a saved analysis; see :func:`clusterdesk.analysis_file.open_analysis`."""
+        return open_analysis(path, rescan=rescan, accept_changed_source=accept_changed_source,
+                             progress=progress, cancel=cancel)
 
     # -------------------------------------------------------------- internals
     def _need_measurements(self) -> Measurements:
@@ -594,14 +496,6 @@ class Analysis:
 def _read(path, text, data: DataChoice) -> Measurements:
     return read_measurements(path, text=text, column=data.column, counts=data.counts,
                              sheet=data.sheet, low=data.low, high=data.high, scale=data.scale)
-
-
-@dataclass(frozen=True)
-class OpenedAnalysis:
-    """A reopened analysis, and whether its source changed since it was saved."""
-
-    analysis: Analysis
-    source_changed: bool
 
 
 def _row_entries(rows, source, kept_post) -> dict:
@@ -633,40 +527,3 @@ def _interval_ends(values, given: dict):
         return given["bounds"]
     step = given["resolution"]
     return values - step / 2, values + step / 2
-
-
-def _parse_saved(raw, path) -> dict:
-    """Check the layout of a saved analysis and return it."""
-    bad = FileFormatError(f"{path.name} is not a ClusterDesk analysis file (its contents do not "
-                          "have the expected fields); open the data file itself instead.")
-    if not isinstance(raw, dict) or raw.get("format") != "clusterdesk-analysis":
-        raise bad
-    version = raw.get("format_version")
-    if not isinstance(version, int):
-        raise bad
-    if version > FORMAT_VERSION:
-        raise FileFormatError(f"{path.name} was saved by a newer ClusterDesk "
-                              f"({raw.get('software_version', 'unknown version')}, layout {version}) than this "
-                              f"one ({__version__}, which reads layout {FORMAT_VERSION}); update ClusterDesk "
-                              "to open it.")
-    if not isinstance(raw.get("data"), dict) or not isinstance(raw.get("settings"), dict):
-        raise bad
-    try:
-        source = raw["source"]
-        data = {key: raw["data"][key] for key in DataChoice.__dataclass_fields__ if key in raw["data"]}
-        settings = {key: raw["settings"][key] for key in ScanSettings.__dataclass_fields__
-                    if key in raw["settings"]}
-        choice = raw.get("choice")
-        if not isinstance(source, dict) or not isinstance(source.get("path"), str) or "sha256" not in source:
-            raise bad
-        if choice is not None and (not isinstance(choice, list) or len(choice) != 2
-                                   or not whole_number(choice[0], 1) or choice[1] not in ("separate", "shared")):
-            raise bad
-    except (KeyError, TypeError):
-        raise bad from None
-    problem = settings_problem(settings, ScanSettings.kmax) or data_problem(data)
-    if problem:
-        raise FileFormatError(f"{path.name} holds settings that cannot be used ({problem}); the file was "
-                              "edited or damaged, so open the data file itself instead.")
-    return {"source": source, "data": data, "settings": settings, "choice": choice}
-

@@ -11,7 +11,7 @@ from .engine.fitting import FitSettings, FittedModel, fit_model
 from .engine.lrtest import likelihood_ratio_test  # the engine function is the public door
 from .engine.scan import ScanResult, model_rng, scan_models
 from .engine.treatment import resolve_treatment
-from .engine.validation import check_component_range, check_seed, check_widths, prepare_sample
+from .engine.validation import check_component_range, check_seed, check_widths
 from .errors import InputError
 
 __all__ = ["scan", "fit", "bootstrap", "likelihood_ratio_test"]

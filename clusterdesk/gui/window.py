@@ -271,7 +271,6 @@ class MainWindow(Workflow, ScreeningWorkflow, AnalysisFileProblems, QMainWindow)
         self.qq.show_analysis(a)
         self.ranking.show_analysis(a)
         self.show_components()
-        fitted = a is not None and a.scan is not None
         self.update_plot_caution()
 
     def update_plot_caution(self) -> None:

@@ -355,11 +355,11 @@ def _notes(plan, replicates, *, n_ok, n_failed, n_collapsed, n_relabelled, missi
     how = "Resampling" if plan.method == "resample" else "Parametric bootstrap"
     notes = [f"{how}: " + _PATH_WORDS[plan.path].format(size=plan.support_size) + "."]
     if plan.binning_offset is not None:
-        shift = float(np.max(np.abs(plan.binning_offset[2]) / plan.reference[2]))
+        shift = 100.0 * float(np.max(np.abs(plan.binning_offset[2]) / plan.reference[2]))
+        size = "under 0.01 %" if shift < 0.01 else f"at most {shift:.2g} %"
         notes.append("Replicates were refitted to the bins' midpoints and shifted by the difference "
-                     "that fitting midpoints makes on the sample itself (at most "
-                     f"{100 * shift:.2g} % of a component's variance), so they centre on the fit "
-                     "of the exact values.")
+                     f"that fitting midpoints makes on the sample itself ({size} of a component's "
+                     "variance), so they centre on the fit of the exact values.")
     if n_failed or n_collapsed:
         notes.append(f"{n_failed} of {replicates} replicates did not converge and {n_collapsed} "
                      f"lost a component (collapsed); the intervals use the other {n_ok}.")

@@ -19,8 +19,7 @@ import numpy as np
 from .api import bootstrap as run_bootstrap
 from .engine.bootstrap import bootstrap_model
 from .engine.fitcheck import goodness_of_fit
-from .engine.fitting import FitSettings, FittedModel
-from .engine.parallel import process_workers, start_fork_server
+from .engine.fitting import FittedModel
 from .engine.scan import ScanResult, scan_models
 from .engine.treatment import resolve_treatment
 from .errors import InputError
@@ -221,12 +220,9 @@ class Analysis:
     def compute_scan(self, settings: ScanSettings | None = None, progress=None, cancel=None) -> ScanResult:
         """Run the scan and return it, without changing the analysis."""
         s = self.settings if settings is None else settings
-        if (self.measurements is not None and self.measurements.fit_values.size > FitSettings.bin_above
-                and process_workers(None) > 1):
-            # Probably fitted in worker processes: their server's imports overlap the preparation.
-            start_fork_server(scan_models.__module__)
-        return scan_models(None, kmin=s.kmin, kmax=s.kmax, widths=s.widths, restarts=s.restarts,
-                           seed=s.seed, progress=progress, cancel=cancel, prepared=self.prepared_sample(s))
+        return scan_models(self._need_measurements().fit_values, kmin=s.kmin, kmax=s.kmax,
+                           widths=s.widths, restarts=s.restarts, seed=s.seed, progress=progress,
+                           cancel=cancel, prepared=lambda: self.prepared_sample(s))
 
     def prepared_sample(self, settings: ScanSettings | None = None):
         """The kept values prepared for the engine under these settings: (Sample, Treatment).

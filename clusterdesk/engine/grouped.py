@@ -383,14 +383,10 @@ def _sparse_bins(x, c, width, step):
     return lower, lower + width, np.add.reduceat(c, starts)
 
 
-def _restarts(data, k, shared, rng, settings, cancel, em=None):
-    """Screened starts, then EM on all of them side by side.
-
-    ``em`` defaults to the final tolerance ``settings.tol`` with
-    :data:`INTERVAL_MAX_ITER`.
-    """
+def _restarts(data, k, shared, rng, settings, cancel):
+    """Screened starts, then EM on all of them side by side, to ``settings.tol`` within :data:`INTERVAL_MAX_ITER`."""
     w0, m0, v0 = _screened_starts(data, k, shared, rng, settings, cancel)
-    em = EMSettings(tol=settings.tol, max_iter=INTERVAL_MAX_ITER) if em is None else em
+    em = EMSettings(tol=settings.tol, max_iter=INTERVAL_MAX_ITER)
     return run_batch(data.x, data.c, w0, m0, v0, n=data.n, var_floor=data.var_floor,
                      shared=shared, cancel=cancel, e_step_fn=data.e_step, settings=em)
 

@@ -242,7 +242,7 @@ def binning_offset(plan: ReplicatePlan):
         more than 5 %.
     """
     counts = (plan.probabilities * plan.n)[None, :]
-    fit = refit_replicates(replace(plan, binning_offset=None), np.array([0]), plan.support, counts)
+    fit = refit_replicates(plan, np.array([0]), plan.support, counts)
     if fit.collapsed[0] or not fit.converged[0]:
         return None
     w, mu, var = plan.reference

@@ -169,11 +169,11 @@ def scan_models(values, *, counts=None, kmin=1, kmax=6, widths="separate", resta
         "__main__":``). Smaller samples are fitted in this thread (a model
         takes milliseconds, less than starting a process). The result is the
         same, bit for bit, whatever the number.
-    prepared : tuple (Sample, Treatment), optional
-        What :func:`.treatment.resolve_treatment` returned for these values,
-        counts, treatment, resolution and bounds, when the caller has it
-        already (preparing 10^7 values takes a few tenths of a second); it
-        is then used as it is.
+    prepared : callable() -> (Sample, Treatment), optional
+        Called instead of :func:`.treatment.resolve_treatment` (with the
+        values, counts, treatment, resolution and bounds) by a caller that
+        keeps the prepared sample (preparing 10^7 values takes a few tenths
+        of a second); ``values`` then only tells how many there are.
 
     Returns
     -------
@@ -183,11 +183,11 @@ def scan_models(values, *, counts=None, kmin=1, kmax=6, widths="separate", resta
     check_seed(seed)
     settings = _with_restarts(settings, restarts)
     workers = process_workers(workers)
+    if workers > 1 and _length(values) > settings.bin_above:
+        start_fork_server(__name__)  # likely fitted in processes: their server imports while we prepare
     if prepared is not None:
-        sample, used = prepared
+        sample, used = prepared()
     else:
-        if workers > 1 and _length(values) > settings.bin_above:
-            start_fork_server(__name__)  # likely fitted in processes: their server imports while we prepare
         sample, used = resolve_treatment(values, counts, treatment=treatment, resolution=resolution,
                                          bounds=bounds)
     check_component_range(kmin, kmax, sample)

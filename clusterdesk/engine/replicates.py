@@ -18,7 +18,8 @@ How a replicate's data are drawn (the *path*, reported with the result):
     counts over a fine histogram of the values, which has the same
     distribution as resampling the raw values and then binning them.  For the
     parametric bootstrap the bin probabilities are those of the fitted
-    mixture.  At least ``_BINS_PER_SD`` bins span the narrowest component's
+    mixture.  At least ``FitSettings.replicate_bins`` bins span the range and
+    at least ``_BINS_PER_SD`` the narrowest component's
     standard deviation, so binning adds under 1/4800 of its variance
     (Sheppard's ``h**2 / 12``).  Replicates are refitted by the bins'
     midpoints; that small shift is then taken out: the sample's own bin
@@ -62,7 +63,6 @@ __all__ = ["ReplicatePlan", "RefitBatch", "plan_replicates", "draw_replicates", 
 PURPOSE_RESAMPLE = 0x5EED01
 PURPOSE_PARAMETRIC = 0x5EED02
 _BINS_PER_SD = 20
-_MAX_BINS_FACTOR = 8          # at most this many times FitSettings.bins
 _BATCH_ELEMENTS = 1 << 21     # replicates x values x components per batch (bounds memory)
 _MAX_BATCH = 64
 
@@ -277,7 +277,7 @@ def _parametric_plan(sample, data, min_sd, settings, common) -> ReplicatePlan:
     if grid_step is not None:
         first = data.x[0] + grid_step * math.floor((lo - data.x[0]) / grid_step)
         cells = int(math.ceil((hi - first) / grid_step)) + 1
-        if cells <= _MAX_BINS_FACTOR * settings.bins:
+        if cells <= settings.max_bins:
             points = first + grid_step * np.arange(cells)
             edges = np.concatenate([points - 0.5 * grid_step, [points[-1] + 0.5 * grid_step]])
             return ReplicatePlan(path="grid", support=points,
@@ -297,7 +297,7 @@ def _distinct(x, c):
 
 def _edges(lo, hi, min_sd, settings):
     wanted = math.ceil(_BINS_PER_SD * (hi - lo) / min_sd)
-    bins = int(min(_MAX_BINS_FACTOR * settings.bins, max(settings.bins, wanted)))
+    bins = int(min(settings.max_bins, max(settings.replicate_bins, wanted)))
     return np.linspace(lo, hi, bins + 1)
 
 

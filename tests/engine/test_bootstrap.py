@@ -147,7 +147,7 @@ def test_binning_offset_is_sheppards_correction_and_recentres_the_replicates(mon
     x = np.random.default_rng(21).normal(5.0, 1.5, 6000)
     model = clusterdesk.fit(x, 1)
     sample = prepare_sample(x)
-    coarse = FitSettings(bins=16)
+    coarse = FitSettings(replicate_bins=16)
     monkeypatch.setattr(replicates, "_BINS_PER_SD", 2)
     plan = plan_replicates(sample, model, "resample", 0, coarse)
     assert plan.path == "fine histogram" and plan.binning_offset is not None

@@ -42,7 +42,7 @@ def test_polishing_only_near_solutions_loses_no_likelihood(k, widths):
 
 def test_histogram_is_refined_for_a_narrow_component_and_its_width_reported():
     # A narrow group (sd 0.02) beside a wide one (sd 1): the first histogram
-    # (width about range / 2048) spans the narrow group with under 10 bins, so
+    # (width about range / 512) spans the narrow group with under 10 bins, so
     # the fit is run again on bins of 1/20 of its sd, and the width is reported.
     # Reference: scikit-learn's GaussianMixture on the raw values, tight tolerance.
     from sklearn.mixture import GaussianMixture

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["loglik_derivatives", "split_parameters", "join_parameters", "TrialPoints"]
+__all__ = ["loglik_derivatives", "split_parameters", "join_parameters", "TrialPoints", "hessian_from_terms"]
 
 _HALF_LOG_2PI = 0.5 * float(np.log(2.0 * np.pi))
 #: Values per chunk when one parameter set is evaluated on many values.
@@ -70,7 +70,7 @@ def loglik_derivatives(x, c, w, mu, sd, shared, order=2):
     nk = np.zeros((1, k))
     grad = np.zeros((1, p))
     outer = np.zeros((1, p, p))
-    sums = np.zeros((1, 5, k))  # sum c r times: z, z^2, z^2 - 1, z (z^2 - 1), (z^2 - 1)^2
+    terms = np.zeros((1, 5, k))  # see hessian_from_terms
     # Chunks keep memory bounded and every numpy call short, so a worker
     # thread running this never holds the interpreter for long (the window's
     # event loop stays responsive).
@@ -84,29 +84,36 @@ def loglik_derivatives(x, c, w, mu, sd, shared, order=2):
             grad += part[0]
             if order == 2:
                 outer += part[1]
-                sums += part[2]
+                terms += part[2]
     if order == 0:
         return loglik, None, None, nk[0]
     if order == 1:
         return loglik, grad[0], None, nk[0]
-    return loglik, grad[0], _hessian(outer, sums, w, sd, nk, c.sum(), shared)[0], nk[0]
+    return loglik, grad[0], hessian_from_terms(outer, terms, w, nk, c.sum(), shared)[0], nk[0]
 
 
-def _hessian(outer, sums, w, sd, nk, n, shared):
-    """Assemble the Hessians, shape (r, p, p), from the outer products of the scores and the per-component sums.
+def hessian_from_terms(outer, terms, w, nk, n, shared):
+    """Assemble the Hessians, shape (r, p, p), from the outer products of the scores and per-component sums.
 
-    ``H = sum_i c_i (sum_j r_ij (d2 log(w_j phi_ij) + g_ij g_ij') - s_i s_i')``
-    where ``s_i`` is the score of value i and ``g_ij`` the score of its
+    ``H = sum_i c_i (sum_j r_ij (d2 log(w_j f_ij) + g_ij g_ij') - s_i s_i')``
+    where ``f_ij`` is component j's density (or probability) of observation
+    i, ``s_i`` the score of observation i and ``g_ij`` the score of its
     component j (Louis 1982, J. R. Statist. Soc. B 44:226-233, the observed
     information of incomplete data; from memory); only the block-diagonal part of the
-    first term needs the per-component sums.
+    first term needs the per-component sums, and it has the same form for
+    densities of exact values and probabilities of intervals.
 
     Parameters
     ----------
     outer : ndarray, shape (r, p, p)
-    sums : ndarray, shape (r, 5, k)
-        Sums of ``c r`` times z, z^2, z^2 - 1, z (z^2 - 1), (z^2 - 1)^2 per component.
-    w, sd, nk : ndarray, shape (r, k)
+        ``sum_i c_i s_i s_i'``.
+    terms : ndarray, shape (r, 5, k)
+        Per component j, sums over observations of ``c r``, times: the
+        component's score for its mean (``d log f / d mu``) and for its log
+        standard deviation (``d log f / d tau``), and ``(d2 f / d mu2) / f``,
+        ``(d2 f / d mu d tau) / f``, ``(d2 f / d tau2) / f``.
+    w, nk : ndarray, shape (r, k)
+        Weights and expected counts.
     n : float
         Total count.
     shared : bool
@@ -115,10 +122,10 @@ def _hessian(outer, sums, w, sd, nk, n, shared):
     k = w.shape[1]
     kk = k - 1
     diag = p + 1  # stride of a diagonal in a flattened matrix
-    s_z, s_z2, s_z2m1, s_zz2m1, s_z2m1sq = (sums[:, i] for i in range(5))
+    q_mu, q_tau, h_mu_mu, h_mu_tau, h_tau_tau = (terms[:, i] for i in range(5))
     # With v = w[:k-1] and d = nk[:k-1] - n v, the weights block of the first
     # term is diag(d) - d v' - v d', and its cross blocks with a per-component
-    # vector q (means: q = sum c r z / sd; widths: sum c r (z^2 - 1)) are
+    # vector q (the sums of c r times the mean or width score) are
     # [diag(q[:k-1]) | 0] - v q'. Diagonals are filled through slices of the
     # flattened matrices: each block is one short numpy call for all rows.
     v = w[:, :kk]
@@ -128,31 +135,29 @@ def _hessian(outer, sums, w, sd, nk, n, shared):
     dv = d[:, :, None] * v[:, None, :]
     hess[:, :kk, :kk] -= dv + dv.transpose(0, 2, 1)
     flat[:, :kk * diag:diag] += d
-    cross_mu = v[:, :, None] * (-s_z / sd)[:, None, :]             # (r, k-1, k)
-    cross_mu.reshape(rows, -1)[:, :kk * (k + 1):k + 1] += s_z[:, :kk] / sd[:, :kk]
-    cross_tau = v[:, :, None] * (-s_z2m1)[:, None, :]
-    cross_tau.reshape(rows, -1)[:, :kk * (k + 1):k + 1] += s_z2m1[:, :kk]
+    cross_mu = v[:, :, None] * (-q_mu)[:, None, :]                 # (r, k-1, k)
+    cross_mu.reshape(rows, -1)[:, :kk * (k + 1):k + 1] += q_mu[:, :kk]
+    cross_tau = v[:, :, None] * (-q_tau)[:, None, :]
+    cross_tau.reshape(rows, -1)[:, :kk * (k + 1):k + 1] += q_tau[:, :kk]
     hess[:, :kk, kk:kk + k] += cross_mu
     hess[:, kk:kk + k, :kk] += cross_mu.transpose(0, 2, 1)
-    flat[:, kk * diag:(kk + k) * diag:diag] += (s_z2 - nk) / sd**2
-    mu_tau = (s_zz2m1 - 2.0 * s_z) / sd
-    tau_tau = s_z2m1sq - 2.0 * s_z2
+    flat[:, kk * diag:(kk + k) * diag:diag] += h_mu_mu
     if shared:
         t = 2 * k - 1
         cross_t = cross_tau.sum(axis=2)
         hess[:, :kk, t] += cross_t
         hess[:, t, :kk] += cross_t
-        hess[:, kk:kk + k, t] += mu_tau
-        hess[:, t, kk:kk + k] += mu_tau
-        hess[:, t, t] += tau_tau.sum(axis=1)
+        hess[:, kk:kk + k, t] += h_mu_tau
+        hess[:, t, kk:kk + k] += h_mu_tau
+        hess[:, t, t] += h_tau_tau.sum(axis=1)
     else:
         hess[:, :kk, kk + k:] += cross_tau
         hess[:, kk + k:, :kk] += cross_tau.transpose(0, 2, 1)
         start = kk * diag + k                           # entry (k-1, 2k-1): mean j with its width
-        flat[:, start:start + k * diag:diag] += mu_tau
+        flat[:, start:start + k * diag:diag] += h_mu_tau
         start = (kk + k) * p + kk                       # entry (2k-1, k-1): width j with its mean
-        flat[:, start:start + k * diag:diag] += mu_tau
-        flat[:, (kk + k) * diag::diag] += tau_tau
+        flat[:, start:start + k * diag:diag] += h_mu_tau
+        flat[:, (kk + k) * diag::diag] += h_tau_tau
     return hess
 
 
@@ -191,7 +196,7 @@ def _value_terms(x, c, w, mu, sd):
 
 
 def _derivative_terms(c, w, sd, shared, z, resp, nk, order):
-    """Gradients, and for ``order == 2`` the outer products of the scores and the sums of :func:`_hessian`.
+    """Gradients, and for ``order == 2`` the outer products of the scores and the terms of :func:`hessian_from_terms`.
 
     The scores of each value are formed already multiplied by the square root
     of its count, so that a gradient is one matrix-vector product and the
@@ -212,7 +217,7 @@ def _derivative_terms(c, w, sd, shared, z, resp, nk, order):
     grad : ndarray, shape (r, p)
     outer : ndarray, shape (r, p, p)
         Only for ``order == 2``, as are
-    sums : ndarray, shape (r, 5, k)
+    terms : ndarray, shape (r, 5, k)
     """
     rows, k, m = z.shape
     kk = k - 1
@@ -241,9 +246,14 @@ def _derivative_terms(c, w, sd, shared, z, resp, nk, order):
         return (grad,)
     # Restart by restart: each one's numbers do not depend on which others walk beside it.
     outer = np.stack([s @ s.T for s in scores])
-    s_z = grad[:, kk:kk + k] * sd
-    sums = np.stack([s_z, s_z2m1 + nk, s_z2m1, cubic, quartic], axis=1)
-    return grad, outer, sums
+    # For a normal density, with z = (x - mu) / sd: d log f / d mu = z / sd,
+    # d log f / d tau = z^2 - 1, f_mu_mu / f = (z^2 - 1) / sd^2,
+    # f_mu_tau / f = (z^3 - 3 z) / sd, f_tau_tau / f = (z^2 - 1)^2 - 2 z^2.
+    q_mu = grad[:, kk:kk + k]
+    s_z = q_mu * sd
+    terms = np.stack([q_mu, s_z2m1, s_z2m1 / sd**2, (cubic - 2.0 * s_z) / sd,
+                      quartic - 2.0 * (s_z2m1 + nk)], axis=1)
+    return grad, outer, terms
 
 
 class TrialPoints:
@@ -277,5 +287,5 @@ class TrialPoints:
             w, sd, nk, z, resp = w[rows], sd[rows], self.nk[rows], self._z[rows], self._resp[rows]
         else:
             nk, z, resp = self.nk, self._z, self._resp
-        grad, outer, sums = _derivative_terms(c, w, sd, shared, z, resp, nk, order=2)
-        return grad, _hessian(outer, sums, w, sd, nk, c.sum(), shared)
+        grad, outer, terms = _derivative_terms(c, w, sd, shared, z, resp, nk, order=2)
+        return grad, hessian_from_terms(outer, terms, w, nk, c.sum(), shared)

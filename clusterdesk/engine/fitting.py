@@ -7,11 +7,13 @@ The steps, in order:
 2. choose the variance floor: a small fraction of a robust spread, and never
    below the variance of rounding (h**2 / 12, Sheppard 1898) when the values
    lie on a grid of step h;
-3. make the starts and run EM on all restarts side by side; when the sample
-   has many distinct values, first on a fine histogram of the values (an
-   exact-enough proxy whose cost does not grow with n), then polish the best
-   distinct solutions on the raw values, so the reported fit is the maximum
-   of the exact likelihood;
+3. make the starts and run EM on all restarts side by side, then certified
+   Newton steps; when the sample has many distinct values, first on a
+   histogram of the values aligned to their recording grid, each bin fitted
+   as an interval (the likelihood of :mod:`.grouped`, whose cost does not
+   grow with n), on finer bins when a component is narrow, then polish the
+   best distinct solutions on the raw values, so the reported fit is a
+   maximum of the exact likelihood;
 4. apply the collapse rule: a restart that ends with a component at the
    variance floor, with fewer than ``min_count`` expected observations, or
    with a spike (a small component far narrower than the widest, see
@@ -74,28 +76,38 @@ class FitSettings:
     bin_above : int, default 4000
         Samples with more distinct values than this are first fitted on a
         histogram of ``bins`` bins, then polished on the raw values.
-    bins : int, default 512
+    bins : int, default 128
         About how many bins span the sample's range; see ``bins_per_spread``.
-    bins_per_spread : int, default 64
+    bins_per_spread : int, default 16
         The bin width is at most the robust spread (interquartile range / 1.349)
         divided by this, so far-out values (which only add a non-empty bin
-        each) do not coarsen the bins of the bulk. A normal component as wide
-        as the bulk then spans 64 bins per standard deviation; narrower ones
-        are caught by ``bins_per_narrowest_sd``. The histogram only finds
-        candidates (the raw values polish them), and its cost per step is
-        proportional to the bins: on the large-sample benchmark's 10^7 values
-        (k = 1..8, both width variants) 512 bins and 1/64 of the spread took
-        14.4 s of CPU against 25.1 s for 2,048 and 1/256, with the same
-        log-likelihoods for every model with up to five components and
-        different local maxima (2.7 lower to 2.9 higher) for the overfitted
-        separate-width models with six to eight.
+        each) do not coarsen the bins of the bulk. These first bins are
+        coarse on purpose: they are fitted by the likelihood of intervals,
+        which has no midpoint bias at any width, and a component narrower
+        than 10 of them sends the candidates on to bins of 1/20 of its
+        standard deviation (``bins_per_narrowest_sd``). Measured on the
+        large-sample benchmark's values (k = 1..8, both width variants, one
+        thread): 15.4 s of CPU at 10^7 values and 12.7 s at 10^6, against
+        14.5 s and 8.9 s for 512 bins of 1/64 of the spread fitted by their
+        midpoints and 38.0 s (10^7) for 512 such bins fitted as intervals;
+        the polished log-likelihoods were the same for every model with up to
+        four components and for the shared-width models, while the
+        overfitted separate-width models (five to eight components) ended on
+        other local maxima (4.1 lower to 2.7 higher).
+    bins_likelihood : {"intervals", "midpoints"}, default "intervals"
+        How the histogram stage fits its bins: each bin as the interval of
+        values it holds (the likelihood of :mod:`.grouped`, with EM and
+        Newton steps on it), or each bin as its count of values at its
+        midpoint (a proxy whose variances are inflated by about
+        ``width**2 / 12``, Sheppard 1898). Either way the candidates are
+        then polished on the raw values.
     bins_per_narrowest_sd : int, default 20
         When the best histogram solution has a component narrower than 10 bin
         widths, the histogram stage is run again from its candidates on bins
         of this fraction of that component's standard deviation (at most
-        ``max_bins`` non-empty bins), so that every component is fitted on
-        bins small against it. The width used is reported
-        (``FittedModel.bin_width``).
+        ``max_bins`` non-empty bins), up to three times, so that every
+        component is fitted on bins small against it. The width used is
+        reported (``FittedModel.bin_width``).
     max_bins : int, default 16384
         Most non-empty bins of any histogram, here and in the bootstrap
         (the width is doubled until they fit).
@@ -130,14 +142,20 @@ class FitSettings:
     min_sd_fraction: float = 1e-3
     min_count: float = 2.0
     bin_above: int = 4000
-    bins: int = 512
-    bins_per_spread: int = 64
+    bins: int = 128
+    bins_per_spread: int = 16
     bins_per_narrowest_sd: int = 20
     max_bins: int = 16384
     replicate_bins: int = 2048
+    bins_likelihood: str = "intervals"
     polish: int = 3
     polish_within: float = 1.0
     agree_tol: float = 1e-6
+
+    def __post_init__(self):
+        if self.bins_likelihood not in ("intervals", "midpoints"):
+            raise ValueError(f"bins_likelihood must be 'intervals' or 'midpoints', not "
+                             f"{self.bins_likelihood!r}.")
 
 
 @dataclass(frozen=True)
@@ -300,7 +318,7 @@ def _suspect_values(data, sample, result, best, settings):
     return tuple(float(v) for v in held)
 
 
-def _screened_starts(x, c, k, shared, rng, var_floor, settings, cancel):
+def _screened_starts(x, c, k, shared, rng, var_floor, settings, cancel, e_step_fn=None):
     """Short EM runs from ``screen`` times as many starts; keep the best ``restarts``.
 
     The "short runs" strategy of Biernacki, Celeux & Govaert (2003, Comput.
@@ -314,14 +332,19 @@ def _screened_starts(x, c, k, shared, rng, var_floor, settings, cancel):
     if shared:
         v = np.repeat(np.average(v, axis=1, weights=w)[:, None], k, axis=1)
     short = run_batch(x, c, w, m, v, var_floor=var_floor, shared=shared, cancel=cancel,
-                      settings=EMSettings(tol=1e-6, max_iter=settings.screen_steps))
+                      settings=EMSettings(tol=1e-6, max_iter=settings.screen_steps), e_step_fn=e_step_fn)
     keep = np.sort(np.argsort(-np.where(np.isfinite(short.loglik), short.loglik, -np.inf),
                               kind="stable")[:wanted])
     return short.weights[keep], short.means[keep], short.variances[keep]
 
 
-def _run(x, c, data, k, shared, starts, settings, cancel, var_floor=None, max_steps=None):
-    """EM on every start side by side, then certified Newton steps on all of them side by side."""
+def _run(x, c, data, k, shared, starts, settings, cancel, var_floor=None, max_steps=None,
+         e_step_fn=None, points=None):
+    """EM on every start side by side, then certified Newton steps on all of them side by side.
+
+    ``e_step_fn`` and ``points`` choose another likelihood (intervals:
+    :mod:`.grouped`); by default the one of exact values ``x`` with counts ``c``.
+    """
     floor = data.var_floor if var_floor is None else var_floor
     max_steps = settings.newton_steps if max_steps is None else max_steps
     w0, m0, v0 = starts
@@ -329,14 +352,14 @@ def _run(x, c, data, k, shared, starts, settings, cancel, var_floor=None, max_st
         v0 = np.repeat(np.average(v0, axis=1, weights=w0)[:, None], k, axis=1)
     n = float(c.sum())
     result = run_batch(x, c, w0, m0, v0, n=n, var_floor=floor, shared=shared,
-                       settings=settings.em, cancel=cancel)
+                       settings=settings.em, cancel=cancel, e_step_fn=e_step_fn)
     if cancel is not None and cancel.is_set():
         raise Cancelled("The fit was cancelled.")
     # A restart with a dead component is degenerate: nothing to certify.
     alive = np.flatnonzero(np.isfinite(result.loglik) & np.all(result.nk >= 1e-6 * n, axis=1))
     ends = newton_polish_batch(x, c, result.weights[alive], result.means[alive], result.variances[alive],
                                shared=shared, var_floor=floor, tol_abs=settings.tol * n,
-                               max_steps=max_steps, cancel=cancel) if alive.size else []
+                               max_steps=max_steps, cancel=cancel, points=points) if alive.size else []
     if cancel is not None and cancel.is_set():
         raise Cancelled("The fit was cancelled.")
     for i, end in zip(alive, ends):
@@ -349,35 +372,48 @@ def _run(x, c, data, k, shared, starts, settings, cancel, var_floor=None, max_st
     return result
 
 
+#: Rounds of finer bins at most for a narrow component (each at 1/20 of its sd).
+_REFINEMENTS = 3
+
+
 def _fit_binned_then_polish(data, k, shared, rng, settings, cancel):
-    # The histogram stage only finds candidates: the raw values polish them, so
-    # its bins (aligned to the values' grid, .grouped.histogram_bins) are fitted
-    # by their midpoints with Newton walks, which reach better and more distinct
-    # optima sooner than interval EM at a loose tolerance (measured on the scan
-    # benchmark's data: 4.7 s against 15.8 s for k = 1..8, higher log-likelihoods
-    # for k = 5..8).  The bins' floor keeps a component wider than one bin.
+    # The histogram stage only finds candidates: the raw values polish them.
+    # Its bins are aligned to the values' grid (.grouped.histogram_bins), so
+    # each is an exact interval of the data, and they are fitted by the
+    # likelihood of intervals (or, with bins_likelihood="midpoints", by
+    # their midpoints).  The bins' floor keeps a component wider than one bin.
     width = min((data.x[-1] - data.x[0]) / settings.bins, data.spread / settings.bins_per_spread)
-    xb, cb, width = _histogram(data, width, settings)
-    floor_b = max(data.var_floor, width * width)
-    starts = _screened_starts(xb, cb, k, shared, rng, floor_b, settings, cancel)
-    binned = _run(xb, cb, data, k, shared, starts, settings, cancel, var_floor=floor_b,
-                  max_steps=settings.binned_newton_steps)
+    bins = _histogram(data, width, settings)
+    floor_b = max(data.var_floor, bins.width ** 2)
+    starts = _screened_starts(bins.mid, bins.counts, k, shared, rng, floor_b, settings, cancel,
+                              e_step_fn=bins.e_step)
+    binned = _run(bins.mid, bins.counts, data, k, shared, starts, settings, cancel, var_floor=floor_b,
+                  max_steps=settings.binned_newton_steps, e_step_fn=bins.e_step, points=bins.points(shared))
     degenerate = degenerate_fits(binned, floor_b, settings)
     best = _best_index(binned.loglik, degenerate)
     agreeing = _count_agreeing(binned.loglik, best, data.n, settings.agree_tol)
     picks = _distinct_candidates(binned.loglik, degenerate, data.n, settings)
     tried = int(binned.loglik.size)
-    narrowest = float(np.sqrt(binned.variances[best].min()))
-    if width > 0.1 * narrowest:  # a component spans under 10 bins: once more on finer bins
-        xf, cf, fine = _histogram(data, narrowest / settings.bins_per_narrowest_sd, settings)
-        if fine < width:
-            refined = _run(xf, cf, data, k, shared,
-                           (binned.weights[picks], binned.means[picks], binned.variances[picks]),
-                           settings, cancel, var_floor=max(data.var_floor, fine * fine),
-                           max_steps=settings.binned_newton_steps)
-            refined.iterations += binned.iterations[picks]
-            binned, width = refined, fine
-            picks = np.arange(len(picks))
+    width = bins.width
+    for _ in range(_REFINEMENTS):
+        narrowest = float(np.sqrt(binned.variances[best].min()))
+        if width <= 0.1 * narrowest:
+            break
+        # a component spans under 10 bins (on coarse bins it may sit at their
+        # floor of one bin width): the candidates once more on finer bins
+        fine = _histogram(data, narrowest / settings.bins_per_narrowest_sd, settings)
+        if fine.width >= width:
+            break
+        floor_f = max(data.var_floor, fine.width ** 2)
+        refined = _run(fine.mid, fine.counts, data, k, shared,
+                       (binned.weights[picks], binned.means[picks], binned.variances[picks]),
+                       settings, cancel, var_floor=floor_f,
+                       max_steps=settings.binned_newton_steps, e_step_fn=fine.e_step,
+                       points=fine.points(shared))
+        refined.iterations += binned.iterations[picks]
+        binned, width = refined, fine.width
+        picks = np.arange(len(picks))
+        best = _best_index(binned.loglik, degenerate_fits(binned, floor_f, settings))
     polished = _run(data.x, data.c, data, k, shared,
                     (binned.weights[picks], binned.means[picks], binned.variances[picks]),
                     settings, cancel)
@@ -385,8 +421,40 @@ def _fit_binned_then_polish(data, k, shared, rng, settings, cancel):
     return polished, agreeing, tried, width
 
 
-def _histogram(data, width, settings):
-    """Midpoints and counts of the non-empty bins of about the given width, and the width used.
+@dataclass(frozen=True)
+class _Bins:
+    """The non-empty bins of a histogram stage and the likelihood they are fitted by."""
+
+    lower: np.ndarray
+    upper: np.ndarray
+    counts: np.ndarray
+    width: float
+    intervals: bool
+
+    @property
+    def mid(self):
+        return 0.5 * (self.lower + self.upper)
+
+    @property
+    def e_step(self):
+        from .grouped import interval_e_step_on
+
+        return interval_e_step_on(self.lower, self.upper) if self.intervals else None
+
+    def points(self, shared):
+        """Trial points of the interval likelihood for :func:`.newton.newton_polish_batch` (None: midpoints)."""
+        if not self.intervals:
+            return None
+        from .interval_derivatives import IntervalTrialPoints
+
+        def points(w, mu, sd):
+            return IntervalTrialPoints(self.lower, self.upper, self.counts, w, mu, sd, shared)
+
+        return points
+
+
+def _histogram(data, width, settings) -> _Bins:
+    """The non-empty bins of about the given width.
 
     Bins are aligned to the values' grid (:func:`.grouped.histogram_bins`);
     the width is doubled until at most ``settings.max_bins`` bins are non-empty.
@@ -396,7 +464,8 @@ def _histogram(data, width, settings):
     while True:
         lower, upper, counts = histogram_bins(data.x, data.c, settings.bins, data.step, width=width)
         if counts.size <= settings.max_bins:
-            return 0.5 * (lower + upper), counts, float(upper[0] - lower[0])
+            return _Bins(lower, upper, counts, float(upper[0] - lower[0]),
+                         settings.bins_likelihood == "intervals")
         width *= 2.0
 
 

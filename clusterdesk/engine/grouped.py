@@ -23,12 +23,13 @@ taken in log space with :func:`scipy.special.log_ndtr`, on the lower tail
 (an interval above the mean is mirrored), so far tails neither underflow nor
 cancel.
 
-Convergence is declared by :func:`.em.run_batch`'s rule at the final
-tolerance ``FitSettings.tol`` (1e-10 of log-likelihood per observation): the
-gain of a whole accelerated cycle is below it and an Aitken-type estimate of
-the gain still to come (Böhning et al. 1994) is below ten times it.  There is
-no Newton endgame on this path; a restart that reaches the iteration cap is
-recorded as not converged.
+A fit hands over from EM to trust-region Newton steps on the interval
+likelihood (:mod:`.interval_derivatives`, :mod:`.newton`) once EM's gains are
+small, as on the exact path, and convergence is certified the same way: the
+gain a quadratic model still promises is below ``FitSettings.tol`` (1e-10 of
+log-likelihood per observation). Bootstrap replicates of interval fits are
+refitted by EM alone, to that tolerance within :data:`INTERVAL_MAX_ITER`
+steps (:mod:`.replicates`).
 """
 
 from __future__ import annotations
@@ -42,6 +43,7 @@ from . import criteria
 from .em import EMSettings, Stats, run_batch
 from .fitting import (FitSettings, FittedModel, _best_index, _count_agreeing, _robust_spread,
                       degenerate_fits, model_with_criteria)
+from .interval_derivatives import IntervalTrialPoints
 from .mixture import Mixture
 from .starts import make_starts
 from .validation import Sample, weighted_mean_sd
@@ -53,7 +55,7 @@ __all__ = ["prepare_intervals", "log_interval_mass", "interval_e_step", "interva
 
 _LOG_SQRT_2PI = 0.5 * math.log(2.0 * math.pi)
 _CHUNK_ELEMENTS = 1 << 19
-#: Cap on EM map evaluations per restart on the interval path (no Newton endgame).
+#: Cap on EM map evaluations per bootstrap replicate refitted on intervals.
 INTERVAL_MAX_ITER = 6000
 _MOMENT_LOG_FLOOR = -1e4  # masses below e**-10000 carry no responsibility
 
@@ -280,6 +282,13 @@ class _IntervalData:
         self.var_floor = var_floor
         self.e_step = interval_e_step_on(lower, upper)
 
+    def trial_points(self, shared):
+        """The interval likelihood at parameter rows, as :func:`.newton.newton_polish_batch` evaluates it."""
+        def points(w, mu, sd):
+            return IntervalTrialPoints(self.lower, self.upper, self.c, w, mu, sd, shared)
+
+        return points
+
 
 class _Standardised(_IntervalData):
     """Interval data in standard units (mean 0, sd 1 of the representative values)."""
@@ -384,11 +393,12 @@ def _sparse_bins(x, c, width, step):
 
 
 def _restarts(data, k, shared, rng, settings, cancel):
-    """Screened starts, then EM on all of them side by side, to ``settings.tol`` within :data:`INTERVAL_MAX_ITER`."""
-    w0, m0, v0 = _screened_starts(data, k, shared, rng, settings, cancel)
-    em = EMSettings(tol=settings.tol, max_iter=INTERVAL_MAX_ITER)
-    return run_batch(data.x, data.c, w0, m0, v0, n=data.n, var_floor=data.var_floor,
-                     shared=shared, cancel=cancel, e_step_fn=data.e_step, settings=em)
+    """Screened starts, EM on all of them side by side, then certified Newton steps on the interval likelihood."""
+    from .fitting import _run
+
+    starts = _screened_starts(data, k, shared, rng, settings, cancel)
+    return _run(data.x, data.c, data, k, shared, starts, settings, cancel,
+                e_step_fn=data.e_step, points=data.trial_points(shared))
 
 
 def _screened_starts(data, k, shared, rng, settings, cancel):
@@ -418,8 +428,8 @@ def _finish(data, sample, result, best, k, widths, agreeing, restarts, collapsed
     converged = bool(result.converged[best])
     notes = []
     if not converged:
-        notes.append(f"The interval fit did not meet the convergence rule within "
-                     f"{int(result.iterations[best])} EM steps; treat this model with caution.")
+        notes.append(f"The interval fit did not meet the convergence rule within its step limits "
+                     f"({int(result.iterations[best])} EM and Newton steps); treat this model with caution.")
     if collapsed:
         notes.append("Every restart ended with a component squeezed inside one interval "
                      "(a spurious maximum); this model is not a credible description.")

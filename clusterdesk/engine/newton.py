@@ -79,7 +79,7 @@ def newton_polish(x, c, weights, means, variances, *, shared, var_floor, tol_abs
 
 
 def newton_polish_batch(x, c, weights, means, variances, *, shared, var_floor, tol_abs,
-                        max_steps=200, cancel=None) -> list:
+                        max_steps=200, cancel=None, points=None) -> list:
     """Climb to a local maximum from each of several starting points, side by side.
 
     Each step solves the trust-region subproblem exactly in the eigenbasis of
@@ -104,6 +104,12 @@ def newton_polish_batch(x, c, weights, means, variances, *, shared, var_floor, t
         Cap on trial points (accepted or not) per walk.
     cancel : object with ``is_set()``, optional
         Checked every step; the current points are returned unconverged when set.
+    points : callable(w, mu, sd) -> TrialPoints-like, optional
+        The log-likelihood to climb, evaluated at parameter rows (r, k):
+        an object with ``loglik`` (r,), ``nk`` (r, k) and ``derivatives(rows)``.
+        Default: the likelihood of exact values ``x`` with counts ``c``
+        (:class:`.derivatives.TrialPoints`); for intervals,
+        :class:`.interval_derivatives.IntervalTrialPoints` (``x`` then unused).
 
     Returns
     -------
@@ -120,7 +126,10 @@ def newton_polish_batch(x, c, weights, means, variances, *, shared, var_floor, t
     theta = join_parameters(w, means, sd, shared)
     p = theta.shape[1]
     tau_floor = 0.5 * np.log(var_floor) if var_floor > 0 else -np.inf
-    start = TrialPoints(x, c, w, means, sd, shared)
+    if points is None:
+        def points(w_rows, mu_rows, sd_rows):
+            return TrialPoints(x, c, w_rows, mu_rows, sd_rows, shared)
+    start = points(w, means, sd)
     ll, nk = start.loglik.copy(), start.nk.copy()
     grad, hess = start.derivatives(np.arange(rows))
     radius = np.full(rows, _RADIUS_START)
@@ -160,7 +169,7 @@ def newton_polish_batch(x, c, weights, means, variances, *, shared, var_floor, t
         np.maximum(trial[:, 2 * k - 1:], tau_floor, out=trial[:, 2 * k - 1:])
         w_t, mu_t, sd_t = split_parameters(trial, k, shared)
         steps[walking] += 1
-        at_trial = TrialPoints(x, c, w_t, mu_t, sd_t, shared)
+        at_trial = points(w_t, mu_t, sd_t)
         ll_t = at_trial.loglik
         accepted = np.isfinite(ll_t) & (ll_t >= ll[walking])
         taken = np.flatnonzero(accepted)

@@ -17,8 +17,9 @@ from scipy import optimize, stats
 import clusterdesk
 from clusterdesk.engine.em import run_em
 from clusterdesk.engine.fitting import FitSettings, has_spike
-from clusterdesk.engine.grouped import (fit_intervals, histogram_bins, interval_e_step, interval_loglik,
-                                        interval_posterior, log_interval_mass, prepare_intervals)
+from clusterdesk.engine.grouped import (INTERVAL_MAX_ITER, fit_intervals, histogram_bins, interval_e_step,
+                                        interval_loglik, interval_posterior, log_interval_mass,
+                                        prepare_intervals)
 from clusterdesk.engine.mixture import Mixture
 from clusterdesk.engine.scan import model_rng
 from clusterdesk.errors import InputError
@@ -118,6 +119,35 @@ def test_em_optimum_matches_an_independent_maximiser(widths):
     assert fit.loglik - (-ref.fun) < 1e-4
     np.testing.assert_allclose(fit.mixture.means, ref.x[1:3], atol=2e-3)
     assert interval_loglik(lo, hi, c, fit.mixture) == pytest.approx(fit.loglik, rel=1e-12)
+
+
+def test_overfitted_interval_model_is_certified_at_a_maximum():
+    # Three components on two rounded groups: the likelihood is flat along a
+    # ridge, where EM alone crawls (thousands of steps); the Newton endgame
+    # must stop at a point that an independent optimiser cannot improve.
+    # Source: scipy.optimize.minimize (L-BFGS-B) on the interval log-likelihood
+    # written with scipy.stats.norm.cdf, started from the reported fit.
+    z = _two_groups(8, 3000, means=(0.0, 3.0), sds=(1.0, 0.7))
+    sample = _rounded_intervals(z, 0.5)
+    fit = fit_intervals(sample, 3, "separate", model_rng(0, 3, "separate"))
+    assert fit.converged and not fit.collapsed
+    assert fit.iterations < INTERVAL_MAX_ITER // 10
+    lo, hi, c = sample.lower, sample.upper, sample.counts
+
+    def negative(theta):
+        logw = np.r_[theta[:2], 0.0]
+        w = np.exp(logw - logw.max())
+        w /= w.sum()
+        mu, sds = theta[2:5], np.exp(theta[5:8])
+        mass = w * (stats.norm.cdf(hi[:, None], mu, sds) - stats.norm.cdf(lo[:, None], mu, sds))
+        return -c @ np.log(mass.sum(axis=1))
+
+    m = fit.mixture
+    start = np.r_[np.log(m.weights[:2] / m.weights[2]), m.means, np.log(m.sds)]
+    assert -negative(start) == pytest.approx(fit.loglik, abs=1e-8)
+    ref = optimize.minimize(negative, start, method="L-BFGS-B",
+                            options={"ftol": 1e-15, "gtol": 1e-10, "maxiter": 5000})
+    assert -ref.fun <= fit.loglik + 1e-6 * c.sum()
 
 
 def test_interval_fit_removes_sheppard_inflation_of_midpoint_fit():
@@ -234,8 +264,12 @@ def test_binned_stage_agrees_with_the_full_data_fit():
     binned = fit_model(sample, 2, "separate", model_rng(0, 2, "separate"))
     assert abs(binned.loglik - full.loglik) <= 1e-6 * n
     data = standardise(sample, FitSettings())
-    lower, upper, counts = histogram_bins(data.x, data.c, FitSettings().bins)
+    # the bins of the width the scan's histogram stage reports it ended on
+    assert binned.bin_width is not None
+    lower, upper, counts = histogram_bins(data.x, data.c, FitSettings().bins, data.step,
+                                          width=binned.bin_width / data.scale)
     assert counts.sum() == n
+    assert np.allclose(upper - lower, binned.bin_width / data.scale)
     bins = prepare_intervals(0.5 * (lower + upper), counts, lower, upper)
     stage = fit_intervals(bins, 2, "separate", model_rng(0, 2, "separate")).mixture  # sorted by mean
     means = data.center + data.scale * stage.means
@@ -245,6 +279,28 @@ def test_binned_stage_agrees_with_the_full_data_fit():
     se_sd = ref.sds / np.sqrt(2 * n * ref.weights)
     assert np.all(np.abs(means - ref.means) < 0.05 * se_mean)
     assert np.all(np.abs(sds - ref.sds) < 0.05 * se_sd)
+
+
+@pytest.mark.parametrize("bins_likelihood", ["intervals", "midpoints"])
+@pytest.mark.parametrize("widths", ["separate", "shared"])
+def test_histogram_stage_by_either_likelihood_polishes_to_the_full_fit(bins_likelihood, widths):
+    # Reference: the same model fitted to every raw value (no histogram stage);
+    # whether the bins are fitted as intervals (the default) or by their
+    # midpoints, the polish on the raw values must end on the full fit's
+    # maximum (1e-6 of log-likelihood per observation).
+    from clusterdesk.engine.fitting import fit_model
+    from clusterdesk.engine.validation import prepare_sample
+
+    n = 30000
+    sample = prepare_sample(_two_groups(17, n, means=(0.0, 3.5), sds=(1.0, 0.8), share=0.7))
+    assert sample.n_distinct > FitSettings().bin_above
+    full = fit_model(sample, 2, widths, model_rng(0, 2, widths), FitSettings(bin_above=10 ** 9))
+    binned = fit_model(sample, 2, widths, model_rng(0, 2, widths),
+                       FitSettings(bins_likelihood=bins_likelihood))
+    assert binned.bin_width is not None and binned.converged
+    assert abs(binned.loglik - full.loglik) <= 1e-6 * n
+    with pytest.raises(ValueError, match="bins_likelihood"):
+        FitSettings(bins_likelihood="centres")
 
 
 def test_histogram_bins_on_a_grid_hold_whole_cells():

@@ -87,13 +87,14 @@ class FitSettings:
         than 10 of them sends the candidates on to bins of 1/20 of its
         standard deviation (``bins_per_narrowest_sd``). Measured on the
         large-sample benchmark's values (k = 1..8, both width variants, one
-        thread): 15.4 s of CPU at 10^7 values and 12.7 s at 10^6, against
-        14.5 s and 8.9 s for 512 bins of 1/64 of the spread fitted by their
-        midpoints and 38.0 s (10^7) for 512 such bins fitted as intervals;
-        the polished log-likelihoods were the same for every model with up to
-        four components and for the shared-width models, while the
-        overfitted separate-width models (five to eight components) ended on
-        other local maxima (4.1 lower to 2.7 higher).
+        thread, the variants taking turns): at 10^7 values 12.7 and 13.6 s of
+        CPU, against 11.1 and 13.7 s for 512 bins of 1/64 of the spread
+        fitted by their midpoints (and 38 s for 512 bins fitted as intervals);
+        at 10^6 values about 12.3 s against 6.3 s. The polished
+        log-likelihoods were the same (within 0.001) for every model with up
+        to four components and for the shared-width models; the overfitted
+        separate-width models (five to eight components) ended on other local
+        maxima (4.1 lower to 2.7 higher).
     bins_likelihood : {"intervals", "midpoints"}, default "intervals"
         How the histogram stage fits its bins: each bin as the interval of
         values it holds (the likelihood of :mod:`.grouped`, with EM and

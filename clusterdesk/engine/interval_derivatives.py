@@ -113,21 +113,22 @@ class IntervalTrialPoints:
 
 
 def _chunked(lower, upper, c, w, mu, sd, shared):
-    """Log-likelihood, gradient, Hessian and expected counts of one row (shapes (1, k)), chunk by chunk."""
+    """Log-likelihood, gradient, Hessian and expected counts of one row (shapes (1, k)), chunk by chunk.
+
+    Every chunk's derivatives are taken at once, so memory stays bounded by
+    the chunk whatever the number of intervals.
+    """
     k = w.shape[1]
     p = 2 * k if shared else 3 * k - 1
     loglik, nk = 0.0, np.zeros((1, k))
     grad, outer, terms = np.zeros((1, p)), np.zeros((1, p, p)), np.zeros((1, 5, k))
-    parts = []
     for start in range(0, lower.size, _CHUNK):
         part = slice(start, start + _CHUNK)
         ll, part_nk, alpha, beta, logp, resp = _value_pass(lower[part], upper[part], c[part], w, mu, sd)
         loglik += float(ll[0])
         nk += part_nk
-        parts.append((part, alpha, beta, logp, resp))
         if not np.isfinite(loglik):
             return loglik, np.full(p, np.nan), np.full((p, p), np.nan), nk[0]
-    for part, alpha, beta, logp, resp in parts:
         g, o, t = _derivative_pass(c[part], w, sd, shared, alpha, beta, logp, resp)
         grad += g
         outer += o

@@ -18,8 +18,8 @@ log-likelihood, gradient and Hessian.
 
 All restarts of a model walk side by side (:func:`newton_polish_batch`):
 each follows its own trust region and stops on its own, but the arithmetic
-of one step is done for all of them at once. On a histogram of 500 to 1,700 bins
-the fixed cost of a step (eigen-decomposition, trust-region subproblem,
+of one step is done for all of them at once. On a histogram of a hundred to
+a few thousand bins the fixed cost of a step (eigen-decomposition, trust-region subproblem,
 Hessian assembly: many numpy calls on 23-element arrays) is as large as the
 work on the bins, and side by side it is paid once per step of the longest
 walk instead of once per step of every walk.

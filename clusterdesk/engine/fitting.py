@@ -107,8 +107,10 @@ class FitSettings:
         widths, the histogram stage is run again from its candidates on bins
         of this fraction of that component's standard deviation (at most
         ``max_bins`` non-empty bins), up to three times, so that every
-        component is fitted on bins small against it. The width used is
-        reported (``FittedModel.bin_width``).
+        component is fitted on bins small against it. When every candidate
+        then collapses on the raw values, the restarts set aside on the
+        coarse bins (a component at their floor of one bin width) take the
+        same path. The width used is reported (``FittedModel.bin_width``).
     max_bins : int, default 16384
         Most non-empty bins of any histogram, here and in the bootstrap
         (the width is doubled until they fit).
@@ -393,10 +395,38 @@ def _fit_binned_then_polish(data, k, shared, rng, settings, cancel):
     degenerate = degenerate_fits(binned, floor_b, settings)
     best = _best_index(binned.loglik, degenerate)
     agreeing = _count_agreeing(binned.loglik, best, data.n, settings.agree_tol)
-    picks = _distinct_candidates(binned.loglik, degenerate, data.n, settings)
     tried = int(binned.loglik.size)
-    width = bins.width
+    picks = _distinct_candidates(binned.loglik, degenerate, data.n, settings)
+    polished, width = _refine_then_polish(data, k, shared, settings, cancel, bins.width, binned, degenerate,
+                                          picks)
+    if degenerate_fits(polished, data.var_floor, settings).all():
+        # Every polished candidate collapsed.  On coarse bins a real narrow
+        # component and a spurious one both sit at the floor of one bin
+        # width, so the restarts set aside there get their turn on finer bins.
+        rest = np.setdiff1d(np.flatnonzero(np.isfinite(binned.loglik)), picks)
+        if rest.size:
+            again, again_width = _refine_then_polish(data, k, shared, settings, cancel, bins.width, binned,
+                                                     degenerate, rest)
+            if not degenerate_fits(again, data.var_floor, settings).all():
+                polished, width = again, again_width
+    return polished, agreeing, tried, width
+
+
+def _refine_then_polish(data, k, shared, settings, cancel, width, binned, degenerate, carried):
+    """Restarts ``carried`` of a histogram fit on finer bins while a component spans under 10 bins, then on the raw values.
+
+    All of ``carried`` go to the first finer bins; later rounds and the raw
+    values take their distinct candidates (:func:`_distinct_candidates`).
+
+    Returns
+    -------
+    polished : BatchResult
+        The candidates polished on the raw values.
+    width : float
+        Width of the bins the candidates came from (standard units).
+    """
     for _ in range(_REFINEMENTS):
+        best = carried[_best_index(binned.loglik[carried], degenerate[carried])]
         narrowest = float(np.sqrt(binned.variances[best].min()))
         if width <= 0.1 * narrowest:
             break
@@ -407,19 +437,25 @@ def _fit_binned_then_polish(data, k, shared, rng, settings, cancel):
             break
         floor_f = max(data.var_floor, fine.width ** 2)
         refined = _run(fine.mid, fine.counts, data, k, shared,
-                       (binned.weights[picks], binned.means[picks], binned.variances[picks]),
+                       (binned.weights[carried], binned.means[carried], binned.variances[carried]),
                        settings, cancel, var_floor=floor_f,
                        max_steps=settings.binned_newton_steps, e_step_fn=fine.e_step,
                        points=fine.points(shared))
-        refined.iterations += binned.iterations[picks]
-        binned, width = refined, fine.width
-        picks = np.arange(len(picks))
-        best = _best_index(binned.loglik, degenerate_fits(binned, floor_f, settings))
+        refined_degenerate = degenerate_fits(refined, floor_f, settings)
+        if refined_degenerate.all() and not degenerate[carried].all():
+            # On the finer bins every candidate collapsed: small components
+            # narrowed onto a few bins, which finer bins only let them do
+            # more.  The credible candidates of the coarser bins are polished.
+            break
+        refined.iterations += binned.iterations[carried]
+        binned, width, degenerate = refined, fine.width, refined_degenerate
+        carried = _distinct_candidates(binned.loglik, degenerate, data.n, settings)
+    picks = carried[_distinct_candidates(binned.loglik[carried], degenerate[carried], data.n, settings)]
     polished = _run(data.x, data.c, data, k, shared,
                     (binned.weights[picks], binned.means[picks], binned.variances[picks]),
                     settings, cancel)
     polished.iterations += binned.iterations[picks]
-    return polished, agreeing, tried, width
+    return polished, width
 
 
 @dataclass(frozen=True)

@@ -7,7 +7,8 @@ import math
 import numpy as np
 import pytest
 
-from clusterdesk.engine.fitting import FitSettings, _distinct_candidates, fit_model
+from clusterdesk.engine.fitting import FitSettings, fit_model
+from clusterdesk.engine.histogram_stage import distinct_candidates
 from clusterdesk.engine.scan import model_rng
 from clusterdesk.engine.validation import prepare_sample
 
@@ -17,9 +18,9 @@ def test_candidates_far_below_the_best_are_not_polished():
     loglik = np.array([-100.0, -100.5, -100.5 - 1e-9, -103.0, -99.0, -100.9])
     degenerate = np.array([False, False, False, False, True, False])
     settings = FitSettings(polish=3, polish_within=1.0, agree_tol=1e-6)
-    picks = _distinct_candidates(loglik, degenerate, 1000.0, settings)
+    picks = distinct_candidates(loglik, degenerate, 1000.0, settings)
     assert picks.tolist() == [0, 1, 5]  # 2 ties with 1; 4 is degenerate; 3 is 3.0 below
-    assert _distinct_candidates(loglik, degenerate, 1000.0,
+    assert distinct_candidates(loglik, degenerate, 1000.0,
                                 FitSettings(polish=3, polish_within=0.1)).tolist() == [0]
 
 

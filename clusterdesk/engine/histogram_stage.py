@@ -85,7 +85,7 @@ def _refine_then_polish(data, k, shared, settings, cancel, width, binned, degene
     """Restarts ``carried`` of a histogram fit on finer bins while a component spans under 10 bins, then on the raw values.
 
     All of ``carried`` go to the first finer bins; later rounds and the raw
-    values take their distinct candidates (:func:`_distinct_candidates`).
+    values take their distinct candidates (:func:`distinct_candidates`).
 
     Returns
     -------

@@ -11,6 +11,7 @@ load Qt.
 from __future__ import annotations
 
 import argparse
+import os
 import sys
 
 import numpy as np
@@ -273,8 +274,26 @@ def wants_window(argv) -> bool:
     return Path(argv[0]).is_file()
 
 
+def display_missing(environ=None, platform=None) -> bool:
+    """True on Linux when no display server is named and no Qt platform is chosen.
+
+    Qt would then abort the process with a plugin error; the caller says what
+    to do instead.
+    """
+    environ = os.environ if environ is None else environ
+    platform = sys.platform if platform is None else platform
+    return (platform.startswith("linux")
+            and not any(environ.get(name) for name in ("DISPLAY", "WAYLAND_DISPLAY", "QT_QPA_PLATFORM")))
+
+
 def open_window(path=None) -> int:
     """Open the desktop window (imported here only, so headless use never loads Qt)."""
+    if display_missing():
+        print("clusterdesk: there is no display to open the window on (DISPLAY and WAYLAND_DISPLAY "
+              "are not set). On a machine without a desktop use the command line (clusterdesk fit "
+              "FILE; clusterdesk --help lists the commands), or set QT_QPA_PLATFORM=offscreen to run "
+              "the window without showing it.", file=sys.stderr)
+        return 3
     try:
         from .gui.app import main as window_main
     except ImportError as exc:

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import csv
+import os
 import json
 import subprocess
 import sys
@@ -177,3 +178,29 @@ def test_fit_names_a_wild_value_and_a_range_limit_clears_it(tmp_path, capsys):
     out = capsys.readouterr().out
     assert "far outside" not in out
     assert "Best model: 2 components" in out
+
+
+def test_window_without_a_display_says_what_to_do_instead_of_aborting():
+    # Qt aborts the whole process when no platform plugin can start; on a
+    # Linux machine with no display named the command explains itself first.
+    # Run in a child process with a clean environment, as a user would.
+    if not sys.platform.startswith("linux"):
+        pytest.skip("the check applies to Linux, where a display server must be named")
+    env = {key: value for key, value in os.environ.items()
+           if key not in ("DISPLAY", "WAYLAND_DISPLAY", "QT_QPA_PLATFORM")}
+    done = subprocess.run([sys.executable, "-m", "clusterdesk"], env=env, capture_output=True,
+                          text=True, timeout=120)
+    assert done.returncode == 3
+    assert "no display" in done.stderr and "QT_QPA_PLATFORM=offscreen" in done.stderr
+    assert "clusterdesk fit" in done.stderr
+
+
+def test_display_check_reads_the_environment():
+    from clusterdesk.cli import display_missing
+
+    assert display_missing({}, "linux")
+    assert not display_missing({"DISPLAY": ":0"}, "linux")
+    assert not display_missing({"WAYLAND_DISPLAY": "wayland-0"}, "linux")
+    assert not display_missing({"QT_QPA_PLATFORM": "offscreen"}, "linux")
+    assert not display_missing({}, "darwin")
+    assert not display_missing({}, "win32")

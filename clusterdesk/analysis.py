@@ -11,7 +11,7 @@ results in place.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 import numpy as np
@@ -220,9 +220,27 @@ class Analysis:
     def compute_scan(self, settings: ScanSettings | None = None, progress=None, cancel=None) -> ScanResult:
         """Run the scan and return it, without changing the analysis."""
         s = self.settings if settings is None else settings
-        return scan_models(self._need_measurements().fit_values, kmin=s.kmin, kmax=s.kmax,
-                           widths=s.widths, restarts=s.restarts, seed=s.seed, progress=progress,
-                           cancel=cancel, prepared=lambda: self.prepared_sample(s))
+        result = scan_models(self._need_measurements().fit_values, kmin=s.kmin, kmax=s.kmax,
+                             widths=s.widths, restarts=s.restarts, seed=s.seed, progress=progress,
+                             cancel=cancel, prepared=lambda: self.prepared_sample(s))
+        return self._suspects_as_recorded(result)
+
+    def _suspects_as_recorded(self, result: ScanResult) -> ScanResult:
+        """The scan with its far-out values named on the original scale, where the range limits are set.
+
+        On a log scale the engine names them on the scale it fitted
+        (``log10`` of 1000000 is 6); ``result.suspect_values`` stays on that scale.
+        """
+        scale = self._need_measurements().scale
+        if scale == "linear" or not result.suspect_values:
+            return result
+        from .engine.outliers import outlier_note
+        from .io.cleaning import to_original_scale
+
+        fitted = outlier_note(result.suspect_values)
+        recorded = outlier_note([float(v) for v in to_original_scale(np.array(result.suspect_values), scale)],
+                                fitted_on=scale)
+        return replace(result, notes=tuple(recorded if note == fitted else note for note in result.notes))
 
     def prepared_sample(self, settings: ScanSettings | None = None):
         """The kept values prepared for the engine under these settings: (Sample, Treatment).

@@ -173,11 +173,28 @@ def test_fit_names_a_wild_value_and_a_range_limit_clears_it(tmp_path, capsys):
     assert main(["fit", str(source), "--kmax", "3", "--widths", "separate"]) == 0
     out = capsys.readouterr().out
     assert "note: 1 value lies far outside the rest of the sample" in out
-    assert "1e+06" in out and "range limit" in out
+    assert "1000000" in out and "range limit" in out
     assert main(["fit", str(source), "--kmax", "3", "--widths", "separate", "--high", "1000"]) == 0
     out = capsys.readouterr().out
     assert "far outside" not in out
     assert "Best model: 2 components" in out
+
+
+@pytest.mark.parametrize("scale", ["log10", "ln"])
+def test_on_a_log_scale_the_wild_value_is_named_as_recorded(tmp_path, capsys, scale):
+    # The same kind of synthetic data fitted on a log scale: the note names
+    # the value as it was recorded (1000000, not its log10 of 6), since the
+    # range limits that clear it are set on the original scale.
+    rng = np.random.default_rng(8)
+    values = np.concatenate([rng.lognormal(3.0, 0.1, 150), rng.lognormal(3.5, 0.1, 150), [1e6]])
+    source = tmp_path / "levels.csv"
+    source.write_text("level\n" + "\n".join(f"{v:.3f}" for v in values) + "\n", encoding="utf-8")
+    assert main(["fit", str(source), "--kmax", "3", "--scale", scale]) == 0
+    out = capsys.readouterr().out
+    note = next(line for line in out.splitlines() if "far outside" in line)
+    assert ": 1000000 (as recorded; the models are fitted on the " + scale + " scale)" in note
+    assert main(["fit", str(source), "--kmax", "3", "--scale", scale, "--high", "1000"]) == 0
+    assert "far outside" not in capsys.readouterr().out
 
 
 def test_window_without_a_display_says_what_to_do_instead_of_aborting():

@@ -79,21 +79,27 @@ def held_values(values, weights, means, sds, components) -> np.ndarray:
     return np.unique(values[held])
 
 
-def outlier_note(suspects) -> str:
+def outlier_note(suspects, fitted_on=None) -> str:
     """The scan's note naming the suspect values and what to do.
 
     Parameters
     ----------
     suspects : sequence of float
         Distinct suspect values, ascending (at least one).
+    fitted_on : str, optional
+        The name of the scale the models were fitted on (say ``"log10"``)
+        when ``suspects`` are given on the original scale; the note then
+        says so, since range limits are set on the original scale.
 
     Returns
     -------
     str
     """
     suspects = list(suspects)
-    shown = ", ".join(f"{v:.6g}" for v in suspects[:_SHOWN])
+    shown = ", ".join(f"{v:.10g}" for v in suspects[:_SHOWN])
     more = f" and {len(suspects) - _SHOWN} more" if len(suspects) > _SHOWN else ""
+    if fitted_on is not None:
+        more += f" (as recorded; the models are fitted on the {fitted_on} scale)"
     which = "value lies" if len(suspects) == 1 else "values lie"
     return (f"{len(suspects)} {which} far outside the rest of the sample (beyond Tukey's "
             f"far-out fences, 3 interquartile ranges past the quartiles): {shown}{more}. "

@@ -15,6 +15,7 @@ from PySide6.QtCore import Qt, Signal
 from PySide6.QtWidgets import (QComboBox, QHBoxLayout, QLabel, QPushButton, QSpinBox,
                                QVBoxLayout, QWidget)
 
+from ..io.cleaning import to_original_scale
 from .histogram import BIN_RULES, bin_edges, weighted_histogram
 from .models import model_words
 
@@ -28,7 +29,6 @@ _CUT_COLOUR = "#444444"
 _GRID_POINTS = 800
 _QQ_MAX_POINTS = 4000
 _SCALE_WORDS = {"linear": "{}", "ln": "ln({})", "log10": "log10({})"}
-_BACK = {"ln": np.exp, "log10": lambda v: np.power(10.0, v)}
 
 
 def axis_label(measurements) -> str:
@@ -286,8 +286,8 @@ class DistributionView(PlotView):
             return " "
         m = analysis.measurements
         words = [f"value {x:.6g}"]
-        if m.scale in _BACK:
-            words[0] = f"{axis_label(m)} = {x:.5g} (value {float(_BACK[m.scale](x)):.5g})"
+        if m.scale != "linear":
+            words[0] = f"{axis_label(m)} = {x:.5g} (value {float(to_original_scale(x, m.scale)):.5g})"
         if self.edges.size > 1 and self.edges[0] <= x < self.edges[-1]:
             bar = int(np.searchsorted(self.edges, x, side="right") - 1)
             words.append(f"bar density {self.heights[bar]:.4g}")

@@ -22,7 +22,8 @@ from . import reasons as R
 from .numbers import ParsedColumn
 from .table import status_counts
 
-__all__ = ["SCALES", "RowFates", "ReadSummary", "CleanResult", "clean_column", "detect_resolution", "check_scale_and_range"]
+__all__ = ["SCALES", "RowFates", "ReadSummary", "CleanResult", "clean_column", "detect_resolution", "check_scale_and_range",
+           "to_original_scale"]
 
 #: Analysis scales: ``"linear"`` (as measured), ``"ln"`` (natural log), ``"log10"``.
 SCALES = ("linear", "ln", "log10")
@@ -194,6 +195,29 @@ class CleanResult:
     counts: np.ndarray | None
     rows: RowFates
     summary: ReadSummary
+
+
+def to_original_scale(values, scale: str):
+    """Values on the analysis scale back on the original scale.
+
+    Parameters
+    ----------
+    values : float or array_like
+    scale : str
+        One of :data:`SCALES`: ``"ln"`` takes ``exp``, ``"log10"`` ``10**v``,
+        ``"linear"`` returns the values unchanged.
+
+    Returns
+    -------
+    float or ndarray, the shape of ``values``
+    """
+    if scale == "ln":
+        return np.exp(values)
+    if scale == "log10":
+        return np.power(10.0, values)
+    if scale == "linear":
+        return values
+    raise InputError(f"The scale {scale!r} is not known; use one of {', '.join(repr(s) for s in SCALES)}.")
 
 
 def check_scale_and_range(scale: str, low, high) -> tuple[float | None, float | None]:

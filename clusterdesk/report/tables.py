@@ -13,6 +13,7 @@ import numpy as np
 
 from .._version import __version__
 from ..atomic import write_text_atomic
+from ..io.cleaning import to_original_scale
 from .assignments_csv import assignment_header, write_assignments_csv
 from .csvfile import write_csv
 
@@ -23,9 +24,6 @@ __all__ = ["Table", "ranking_table", "treatment_words", "treatment_dict", "compo
 CAUTION = ("A fitted cut point is a statistical estimate from one sample, not a validated "
            "diagnostic or acceptance limit; for decisions about people, products or compliance, "
            "defer to validated methods, local regulations and licensed practice.")
-
-_BACK = {"ln": np.exp, "log10": lambda v: np.power(10.0, v)}
-
 
 @dataclass(frozen=True)
 class Table:
@@ -88,7 +86,7 @@ def components_table(analysis, *, classification=None) -> Table:
     if boot is not None:
         header += [f"{q}_{end}" for q in ("weight", "mean", "sd", "cut_to_next")
                    for end in ("lower", "upper", "se")]
-    if scale in _BACK:
+    if scale != "linear":
         header += ["geometric_mean", "multiplicative_spread", "cut_to_next_original_scale"]
     rows = []
     for j in range(mix.k):
@@ -97,9 +95,8 @@ def components_table(analysis, *, classification=None) -> Table:
                float(summary.misclassification[j]), cuts[j]]
         if boot is not None:
             row += _interval_cells(boot, j)
-        if scale in _BACK:
-            back = _BACK[scale]
-            row += [float(back(mix.means[j])), float(back(mix.sds[j])), float(back(cuts[j]))]
+        if scale != "linear":
+            row += [float(to_original_scale(v, scale)) for v in (mix.means[j], mix.sds[j], cuts[j])]
         rows.append(row)
     return Table(tuple(header), rows)
 

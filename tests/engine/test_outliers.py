@@ -89,7 +89,7 @@ def test_a_wild_value_is_named_with_what_to_do(wild):
     assert len(result.notes) == 1
     note = result.notes[0]
     for value in set(wild):
-        assert f"{value:.6g}" in note
+        assert f"{value:.10g}" in note
     assert "range limit" in note and "recording error" in note
     # Common practice: a value beyond the far-out fences of the clean values is an outlier.
     lower, upper = far_out_fences(np.sort(clean), np.ones(clean.size))

@@ -10,7 +10,7 @@ import pytest
 from clusterdesk.errors import InputError
 from clusterdesk.io import REASON_WORDS, detect_resolution, read_measurements, reason_words
 from clusterdesk.io import reasons as R
-from clusterdesk.io.cleaning import clean_column
+from clusterdesk.io.cleaning import clean_column, to_original_scale
 from clusterdesk.io.numbers import parse_column
 
 
@@ -150,3 +150,16 @@ def test_resolution_of_continuous_data_is_none():
 def test_resolution_reported_on_the_original_scale():
     m = read_measurements(text="x\n1.5\n2.0\n3.5\n", scale="ln")
     assert m.resolution == 0.5
+
+
+@pytest.mark.parametrize("scale, forward", [("ln", np.log), ("log10", np.log10), ("linear", lambda v: v)])
+def test_to_original_scale_undoes_the_analysis_scale(scale, forward):
+    # Reference: numpy's own logarithms; the round trip returns the recorded values.
+    recorded = np.array([0.003, 1.0, 42.5, 1e6])
+    np.testing.assert_allclose(to_original_scale(forward(recorded), scale), recorded, rtol=1e-14)
+    assert float(to_original_scale(forward(1e6), scale)) == pytest.approx(1e6, rel=1e-14)
+
+
+def test_to_original_scale_refuses_an_unknown_scale():
+    with pytest.raises(InputError, match="log10"):
+        to_original_scale(1.0, "sqrt")

@@ -259,6 +259,48 @@ class Analysis:
             self._prepared = ((m, *key), resolve_treatment(treatment=s.treatment, **given))
         return self._prepared[1]
 
+    def data_leaving_out_far_values(self) -> tuple[DataChoice, int]:
+        """The data choice whose range limits leave out the far-out values the scan named.
+
+        A limit moves only to the nearest value that stays: the high limit
+        becomes the largest other value below the lowest named value above
+        the median, the low limit likewise; limits already set only narrow.
+        Values between a named value and the rest (beyond the fences but not
+        named) are left out with it, and counted.
+
+        Returns
+        -------
+        data : DataChoice
+            The current choice with the new limits (original scale, inclusive).
+        dropped : int
+            Kept values that the new limits leave out (named ones included).
+
+        Raises
+        ------
+        InputError
+            When the scan named no far-out values.
+        """
+        scan, m = self._need_scan(), self._need_measurements()
+        if not scan.suspect_values:
+            raise InputError("The scan named no far-out values, so there is nothing to leave out.")
+        named = np.isin(m.fit_values, np.asarray(scan.suspect_values))
+        middle = float(np.median(m.fit_values))
+        low, high = self.data.low, self.data.high
+        above = named & (m.fit_values > middle)
+        below = named & (m.fit_values <= middle)
+        if above.any():
+            rest = m.values[~named & (m.fit_values < m.fit_values[above].min())]
+            high = float(rest.max()) if high is None else min(high, float(rest.max()))
+        if below.any():
+            rest = m.values[~named & (m.fit_values > m.fit_values[below].max())]
+            low = float(rest.min()) if low is None else max(low, float(rest.min()))
+        inside = np.ones(m.values.size, dtype=bool)
+        if low is not None:
+            inside &= m.values >= low
+        if high is not None:
+            inside &= m.values <= high
+        return replace(self.data, low=low, high=high), int(np.count_nonzero(~inside))
+
     def apply_scan(self, result: ScanResult, settings: ScanSettings | None = None) -> None:
         """Make a computed scan the analysis's scan; the choice returns to the best model."""
         if settings is not None:

@@ -147,3 +147,51 @@ def test_questions_before_data_get_clear_errors():
         analysis.fit_input()
     with pytest.raises(InputError, match="run the scan"):
         analysis.chosen
+
+
+@pytest.mark.parametrize("scale, wild", [("linear", 1e6), ("log10", 1e6), ("log10", 1e-6)])
+def test_limits_leaving_out_the_named_far_values_keep_every_other_value(tmp_path, scale, wild):
+    # Synthetic: two groups of 200 (lognormal, so both scales make sense)
+    # and one recording error far above or far below them (common practice:
+    # far beyond Tukey's far-out fences on the scale of the fit).
+    rng = np.random.default_rng(12)
+    clean = np.concatenate([rng.lognormal(3.0, 0.08, 200), rng.lognormal(3.4, 0.08, 200)])
+    source = tmp_path / "levels.csv"
+    source.write_text("level\n" + "\n".join(f"{v:.6g}" for v in np.append(clean, wild)) + "\n",
+                      encoding="utf-8")
+    analysis = Analysis.from_file(source, DataChoice(column="level", scale=scale),
+                                  ScanSettings(kmax=3, widths="separate", restarts=5))
+    analysis.run_scan()
+    assert len(analysis.scan.suspect_values) == 1
+    choice, dropped = analysis.data_leaving_out_far_values()
+    recorded = np.array([float(f"{v:.6g}") for v in clean])
+    assert dropped == 1
+    if wild > 1:
+        assert choice.low is None and choice.high == recorded.max()
+    else:
+        assert choice.low == recorded.min() and choice.high is None
+    assert choice.scale == scale and choice.column == "level"
+
+    analysis.load_file(source, choice)
+    analysis.run_scan()
+    assert analysis.scan.notes == () and analysis.scan.suspect_values == ()
+    assert analysis.measurements.values.size == clean.size
+    # Reference: scikit-learn's GaussianMixture on the clean values (on the
+    # analysis scale), tight tolerance: the same best k, the same log-likelihood.
+    from sklearn.mixture import GaussianMixture
+
+    column = (np.log10(recorded) if scale == "log10" else recorded).reshape(-1, 1)
+    best = analysis.scan.best
+    assert best.k == 2
+    reference = GaussianMixture(2, tol=1e-12, max_iter=5000, n_init=5, random_state=0).fit(column)
+    assert best.loglik == pytest.approx(reference.score(column) * column.size, abs=1e-6 * column.size)
+
+
+def test_leaving_out_far_values_needs_some(tmp_path):
+    rng = np.random.default_rng(3)
+    source = tmp_path / "plain.csv"
+    source.write_text("x\n" + "\n".join(f"{v:.4f}" for v in rng.normal(10.0, 1.0, 300)) + "\n", encoding="utf-8")
+    analysis = Analysis.from_file(source, DataChoice(column="x"), ScanSettings(kmax=2, restarts=2))
+    analysis.run_scan()
+    with pytest.raises(InputError, match="nothing to leave out"):
+        analysis.data_leaving_out_far_values()

@@ -66,9 +66,13 @@ class RankingPanel(QGroupBox):
     -------
     modelChosen(int, str)
         ``k`` and ``widths`` of the row the user selected.
+    leaveOutRequested()
+        The user asked to set range limits that leave out the far-out
+        values the scan named.
     """
 
     modelChosen = Signal(int, str)
+    leaveOutRequested = Signal()
 
     def __init__(self, parent=None):
         super().__init__("Models ranked by BIC", parent)
@@ -81,8 +85,15 @@ class RankingPanel(QGroupBox):
         self.view.setSelectionMode(self.view.SelectionMode.SingleSelection)
         self.view.sortByColumn(3, Qt.SortOrder.AscendingOrder)
         self.summary = WrappedLabel("Fit models to rank them.")
+        self.leave_out_button = QPushButton("Leave the far-out values out")
+        self.leave_out_button.setToolTip("Set the range limits to the nearest values that stay, read the "
+                                         "values again, then fit again. Check the named values for "
+                                         "recording errors first.")
+        self.leave_out_button.setVisible(False)
+        self.leave_out_button.clicked.connect(self.leaveOutRequested)
         layout = QVBoxLayout(self)
         layout.addWidget(self.summary)
+        layout.addWidget(self.leave_out_button, 0, Qt.AlignmentFlag.AlignLeft)
         layout.addWidget(self.view, 1)
         self.view.selectionModel().selectionChanged.connect(self._selection_changed)
         self._updating = False
@@ -91,6 +102,8 @@ class RankingPanel(QGroupBox):
         """Show the analysis's scan and select its chosen model."""
         self._updating = True
         try:
+            self.leave_out_button.setVisible(analysis is not None and analysis.scan is not None
+                                             and bool(analysis.scan.suspect_values))
             if analysis is None or analysis.scan is None:
                 self.model.set_scan(None)
                 self.summary.setText("Fit models to rank them.")
@@ -154,6 +167,8 @@ def ranking_words(analysis) -> str:
         words += " Select a row to show that model."
     if scan.treatment is not None:
         words += f"<br>Values treated as: {html.escape(scan.treatment.describe())}"
+    for note in scan.notes:  # on the scan as a whole, e.g. far-out values
+        words += f"<br><b>Note:</b> {html.escape(note)}"
     return words
 
 
@@ -173,8 +188,7 @@ class ComponentsPanel(QGroupBox):
         self.model = ComponentsModel(self)
         self.view = CopyableTableView()
         self.view.setModel(self.model)
-        self.heading = QLabel("Fit models to see their components.")
-        self.heading.setWordWrap(True)
+        self.heading = WrappedLabel("Fit models to see their components.")
         self.replicates = QSpinBox()
         self.replicates.setRange(10, 10_000)
         self.replicates.setValue(200)
@@ -249,5 +263,5 @@ class ComponentsPanel(QGroupBox):
         on = "" if scale == "linear" else f" Means, sds and cut points are on the {scale} scale."
         self.heading.setText(f"<b>{model_words(chosen.k, chosen.widths)}</b>: log-likelihood "
                              f"{chosen.loglik:.2f}; {chosen.restarts_agreeing} of {chosen.restarts} "
-                             f"restarts agree.{on}" + "".join(f" Note: {n}" for n in analysis.fit_notes))
+                             f"restarts agree.{on}" + "".join(f" Note: {html.escape(n)}" for n in chosen.notes))
         self.caution.setVisible(chosen.k > 1)

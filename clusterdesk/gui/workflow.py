@@ -161,6 +161,20 @@ class Workflow:
 
         self.runner.start("Reading the values again", work, apply)
 
+    @reports_errors
+    def leave_out_far_values(self) -> None:
+        """Set range limits that leave out the far-out values the scan named, and read the values again."""
+        a = self.analysis
+        if a is None or a.scan is None or self.runner.busy:
+            return
+        choice, dropped = a.data_leaving_out_far_values()
+        limits = " and ".join(f"{word} {value:.10g}" for word, value in (("lowest kept", choice.low),
+                                                                        ("highest kept", choice.high))
+                              if value is not None)
+        self.change_data(choice)
+        self.status(f"Range limits set ({limits}); {dropped} value{'s' if dropped != 1 else ''} "
+                    "left out. Fit the models again when the values are read.")
+
     def _take(self, analysis, sheets, pasted) -> None:
         """Make a freshly read analysis the window's analysis."""
         self.analysis, self.sheets, self.pasted_text = analysis, list(sheets), pasted

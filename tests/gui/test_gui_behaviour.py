@@ -14,7 +14,7 @@ from clusterdesk.analysis import DataChoice
 from clusterdesk.errors import InputError
 from clusterdesk.gui.errors import describe_error, install_exception_hook
 from clusterdesk.gui.window import MainWindow
-from gui_helpers import SAMPLES, fit, open_sample
+from gui_helpers import SAMPLES, fit, open_sample, run, shoot
 
 LAKE = DataChoice(column="length_mm")
 
@@ -140,3 +140,33 @@ def test_detection_limit_rows_are_reported(qtbot, window, name):
     open_sample(qtbot, window, name, DataChoice(column="antibody_au", scale="log10"))
     # 75 readings written as "<0.5" (sample_data/README.md)
     assert "75 below detection limit" in window.data_panel.cleaning.text()
+
+
+def test_far_out_values_named_by_the_scan_can_be_left_out_from_the_ranking(qtbot, window, tmp_path):
+    # Synthetic: two groups and one recording error of 1000000 (common
+    # practice: far beyond Tukey's far-out fences). The scan names it; the
+    # button sets the high limit to the largest other value, and the next
+    # fit has nothing to name.
+    rng = np.random.default_rng(8)
+    values = np.concatenate([rng.normal(20.0, 1.0, 150), rng.normal(26.0, 1.0, 150)])
+    source = tmp_path / "lengths.csv"
+    source.write_text("length\n" + "\n".join(f"{v:.3f}" for v in np.append(values, 1e6)) + "\n",
+                      encoding="utf-8")
+    outcome = run(qtbot, window, lambda: window.open_path(str(source), DataChoice(column="length")))
+    assert outcome.status == "done"
+    fit(qtbot, window, kmax=3, restarts=3, widths="separate")
+    button = window.ranking.leave_out_button
+    assert button.isVisible()
+    window.resize(1360, 860)
+    qtbot.wait(100)  # let the wrapped labels take their heights
+    shoot(window, "10-far-out-value-named")
+    assert "far outside the rest of the sample" in window.ranking.summary.text()
+    assert "1000000" in window.ranking.summary.text()
+    outcome = run(qtbot, window, button.click)
+    assert outcome.status == "done"
+    assert float(window.data_panel.high.text()) == pytest.approx(float(f"{values.max():.3f}"))
+    assert window.analysis.measurements.values.size == values.size
+    assert not button.isVisible()  # the results went with the old values
+    fit(qtbot, window, kmax=3, restarts=3, widths="separate")
+    assert not button.isVisible()
+    assert window.analysis.scan.best.k == 2

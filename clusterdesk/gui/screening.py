@@ -9,7 +9,9 @@ through a queued signal as the run reports them
 (:attr:`~clusterdesk.screen.progress.ScreenProgress.new_rows`). Opening a row
 asks the window (signal :attr:`ScreeningView.openRequested`) to load that
 file, sheet and column and fit it with the same settings and the column's own
-seed, so the analysis reproduces the row.
+seed, so the analysis reproduces the row. With an output folder
+(:mod:`.screening_output`) the run keeps a journal there and can be resumed
+after a cancel or a closed window.
 """
 
 from __future__ import annotations
@@ -21,13 +23,15 @@ from PySide6.QtWidgets import (QComboBox, QFileDialog, QFormLayout, QGroupBox, Q
                                QLineEdit, QProgressBar, QPushButton, QSpinBox, QVBoxLayout, QWidget)
 
 from ..analysis import ScanSettings
-from ..screen import default_workers, screen
+from ..errors import InputError
+from ..screen import default_workers, screen, unfinished_run
 from ..screen.discover import DATA_SUFFIXES
 from ..screen.progress import format_duration
 from ..screen.overview import write_overview
 from ..screen.summary import write_summary
 from .errors import describe_error
 from .panels import FitPanel
+from .screening_output import RESUME, START_OVER, OutputFolderRow
 from .screening_table import STATUS_WORDS, ScreeningFilter, ScreeningTableModel
 from .tableview import CopyableTableView
 from .tasks import TaskRunner
@@ -72,10 +76,14 @@ class ScreeningView(QWidget):
         :class:`~clusterdesk.analysis.ScanSettings` that reproduce it.
     backRequested()
         The user wants the analysis page back.
+    statusChanged(str)
+        What the page is doing, for the window's status bar: a run started,
+        finished, was cancelled or stopped, or a table was saved.
     """
 
     openRequested = Signal(object, object)
     backRequested = Signal()
+    statusChanged = Signal(str)
 
     def __init__(self, parent=None):
         super().__init__(parent)
@@ -121,6 +129,7 @@ class ScreeningView(QWidget):
         self.workers.setToolTip("Worker processes (default: the cores of this machine). 1 screens "
                                 "inside the window's own process.")
         self.workers.setMaximumWidth(90)
+        self.output = OutputFolderRow()
 
         self.start_button = QPushButton("Start screening")
         self.start_button.clicked.connect(self.start)
@@ -143,6 +152,7 @@ class ScreeningView(QWidget):
         form = QFormLayout()
         form.addRow("Columns", self.patterns)
         form.addRow("Workers", self.workers)
+        form.addRow("Output folder", self.output)
         inputs_layout.addLayout(form)
 
         run_row = QHBoxLayout()
@@ -289,20 +299,36 @@ class ScreeningView(QWidget):
         if self.busy or not self.inputs:
             return
         inputs, settings, patterns = list(self.inputs), self.settings(), self.column_patterns()
-        workers = self.workers.value()
+        workers, out = self.workers.value(), self.output.folder or None
+        resume = start_over = False
+        if out is not None:
+            try:
+                found = unfinished_run(out, settings)
+            except (InputError, OSError) as exc:
+                self._say(f"Nothing started: {describe_error(exc)[0]}")
+                return
+            if found is not None:
+                answer = self.output.ask_unfinished(found)
+                if not answer:
+                    self._say(f"Nothing started; the unfinished run in {out} is kept.")
+                    return
+                resume, start_over = answer == RESUME, answer == START_OVER
         relay = self._relay
         self.table_model.clear()
         self.result, self.run_settings = None, settings
         self.progress.setRange(0, 0)
         self.progress_label.setText("Listing the files…")
+        where = f", keeping each finished column in {out}" if out else ""
+        self.statusChanged.emit(f"Screening{' (resumed)' if resume else ''} with k = {settings.kmin} to "
+                                f"{settings.kmax} on {workers} worker{'s' if workers > 1 else ''}{where}…")
 
         def work(progress, cancel):
             def report(p):
                 relay.reported.emit(p)
                 progress(p.done, p.total)
 
-            return screen(inputs, columns=patterns, settings=settings, workers=workers,
-                          progress=report, cancel=cancel)
+            return screen(inputs, columns=patterns, settings=settings, workers=workers, out=out,
+                          resume=resume, start_over=start_over, progress=report, cancel=cancel)
 
         self.runner.start("Screening", work, self._take_result, self._failed)
 
@@ -328,23 +354,28 @@ class ScreeningView(QWidget):
     def _take_result(self, result) -> None:
         self.result = result
         counts = result.counts
-        self.progress_label.setText(
-            f"Finished in {format_duration(result.elapsed)}: {counts['ok']:,} columns fitted, "
-            f"{counts['failed']:,} failed, {counts['skipped']:,} skipped (not measurements). "
-            "Double-click a row to open it as an analysis.")
+        reused = f" ({result.reused:,} kept from the earlier run)" if result.reused else ""
+        written = [Path(result.written[k]).name for k in ("summary", "overview") if k in result.written]
+        saved = (f" Wrote {' and '.join(written)} to {Path(result.written['summary']).parent}."
+                 if written else "")
+        self._say(f"Finished in {format_duration(result.elapsed)}: {counts['ok']:,} columns fitted"
+                  f"{reused}, {counts['failed']:,} failed, {counts['skipped']:,} skipped (not measurements)."
+                  f"{saved} Double-click a row to open it as an analysis.")
         self.progress.setRange(0, 1)
         self.progress.setValue(1)
         self.progress.setFormat("done")
 
     def _failed(self, outcome) -> None:
         message, _details = describe_error(outcome.error, outcome.details)
-        self.progress_label.setText(f"The run stopped: {message}")
+        self._say(f"The screening run stopped: {message}")
 
     def _finished(self, outcome) -> None:
         if outcome.status == "cancelled":
             done = sum(1 for r in self.table_model.screen_rows if r.column and r.status != "skipped")
-            self.progress_label.setText(f"Cancelled after {done:,} columns; the rows finished so far "
-                                        "stay in the table.")
+            kept = (f" and in the journal in {self.output.folder}: Start screening again to resume"
+                    if self.output.folder else "")
+            self._say(f"Screening cancelled after {done:,} columns; the rows finished so far stay in the "
+                      f"table{kept}.")
         if outcome.status != "done":
             self.progress.setRange(0, 1)
             self.progress.setValue(0)
@@ -387,18 +418,24 @@ class ScreeningView(QWidget):
             else:
                 written = write_summary(path, rows)
         except OSError as exc:
-            self.progress_label.setText(describe_error(exc)[0])
+            self._say(describe_error(exc)[0])
             return
-        self.progress_label.setText(f"Wrote {len(rows):,} rows to {written}.")
+        self._say(f"Wrote {len(rows):,} screening rows to {written}.")
 
     # ------------------------------------------------------------------ state of the widgets
+    def _say(self, text: str) -> None:
+        """Show what happened under the progress bar and in the window's status bar."""
+        self.progress_label.setText(text)
+        self.statusChanged.emit(text)
+
     def _count_shown(self) -> None:
         shown, total = self.proxy.rowCount(), self.table_model.rowCount()
         self.shown_label.setText(f"{shown:,} of {total:,} rows" if shown != total else f"{total:,} rows")
 
     def _update(self) -> None:
         busy = self.busy
-        for widget in (self.folder_button, self.files_button, self.patterns, self.scan_options, self.workers):
+        for widget in (self.folder_button, self.files_button, self.patterns, self.scan_options, self.workers,
+                       self.output):
             widget.setEnabled(not busy)
         self.start_button.setEnabled(not busy and bool(self.inputs))
         self.cancel_button.setEnabled(busy)

@@ -33,12 +33,19 @@ class ScreeningWorkflow:
     def show_screening(self) -> None:
         """Show the screening page."""
         self.stack.setCurrentIndex(SCREENING_PAGE)
-        self.status("Screening: choose a folder or files, then Start screening.")
+        if self.screening.busy:
+            self.status("Screening is running; its progress is on this page.")
+        else:
+            self.status("Screening: choose a folder or files, then Start screening.")
 
     def leave_screening(self) -> None:
         """Back to the analysis (or the start page when nothing is loaded)."""
         loaded = self.analysis is not None and self.analysis.measurements is not None
         self.stack.setCurrentIndex(1 if loaded else 0)
+        if self.screening.busy:
+            self.status("Screening goes on; Screen many files (Ctrl+M) shows its progress.")
+        elif not self.runner.busy:
+            self.statusBar().clearMessage()  # the screening page's last word is no news here
 
     def open_screened_row(self, row, settings) -> None:
         """Load a screened column as the analysis and fit it as the screening run did.

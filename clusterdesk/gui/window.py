@@ -234,6 +234,7 @@ class MainWindow(Workflow, ScreeningWorkflow, AnalysisFileProblems, QMainWindow)
         self.welcome.screenRequested.connect(self.show_screening)
         self.screening.openRequested.connect(self.open_screened_row)
         self.screening.backRequested.connect(self.leave_screening)
+        self.screening.statusChanged.connect(self.status)
 
     # -------------------------------------------------------------- showing
     def status(self, text: str) -> None:

@@ -19,13 +19,15 @@ Modules, in the order the data flows:
 from __future__ import annotations
 
 from .discover import column_matcher, expand_inputs
-from .runner import ScreenResult, UnfinishedRunError, check_settings, default_workers, screen
+from .runner import (ScreenResult, UnfinishedRun, UnfinishedRunError, check_settings, default_workers, screen,
+                     unfinished_run)
 from .tasks import ColumnTask, ScreenRow, column_seed, screen_column
 
 __all__ = [
     "ColumnTask",
     "ScreenResult",
     "ScreenRow",
+    "UnfinishedRun",
     "UnfinishedRunError",
     "check_settings",
     "column_matcher",
@@ -34,4 +36,5 @@ __all__ = [
     "expand_inputs",
     "screen",
     "screen_column",
+    "unfinished_run",
 ]

@@ -87,6 +87,11 @@ class JournalContents:
         """Finished columns recorded."""
         return len(self.rows)
 
+    @property
+    def unfinished(self) -> bool:
+        """The last run stopped before its end after finishing some columns (it can be resumed)."""
+        return not self.finished and bool(self.rows)
+
 
 def read_journal(path) -> JournalContents:
     """Read a journal; a missing file gives an empty one.
@@ -100,17 +105,20 @@ def read_journal(path) -> JournalContents:
     contents = JournalContents()
     if not path.exists():
         return contents
-    with open(path, encoding="utf-8") as handle:
+    with open(path, encoding="utf-8", errors="replace") as handle:
         for number, line in enumerate(handle, start=1):
             try:
                 entry = json.loads(line)
                 kind = entry["kind"]
             except (ValueError, KeyError, TypeError):
+                entry = kind = None
+            if number == 1 and (kind != "start" or entry.get("format") != JOURNAL_FORMAT):
+                # A file of someone else's (or not text at all) is never overwritten.
+                raise InputError(f"{path} is not a ClusterDesk screening journal; choose another output "
+                                 "folder (--out) or remove the file.")
+            if kind is None:
                 contents.unreadable_lines += 1
                 continue
-            if number == 1 and (kind != "start" or entry.get("format") != JOURNAL_FORMAT):
-                raise InputError(f"{path} is not a ClusterDesk screening journal; choose another --out "
-                                 "folder or remove the file.")
             try:
                 if kind == "listing":
                     listing = _listing_from_dict(entry["listing"])

@@ -35,7 +35,8 @@ from .progress import ScreenProgress
 from .scheduler import Scheduler
 from .summary import SUMMARY_NAME, status_counts, write_summary
 
-__all__ = ["ScreenResult", "UnfinishedRunError", "screen", "check_settings", "default_workers"]
+__all__ = ["ScreenResult", "UnfinishedRun", "UnfinishedRunError", "screen", "unfinished_run", "check_settings",
+           "default_workers"]
 
 _WAIT_SECONDS = 0.5
 
@@ -76,6 +77,58 @@ class ScreenResult:
     elapsed: float
     workers: int
     written: dict = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class UnfinishedRun:
+    """An interrupted screening run found in an output folder.
+
+    Attributes
+    ----------
+    folder : Path
+        The output folder.
+    columns_done : int
+        Columns the run finished (all settings).
+    with_these_settings : int
+        Of those, the columns finished with the settings asked about: the
+        ones a resumed run reuses, for files that have not changed since.
+    """
+
+    folder: Path
+    columns_done: int
+    with_these_settings: int
+
+
+def unfinished_run(out, settings: ScanSettings) -> UnfinishedRun | None:
+    """The interrupted run in an output folder, if any (what ``screen`` refuses without resume or start over).
+
+    Parameters
+    ----------
+    out : str or Path
+        An output folder (it need not exist).
+    settings : ScanSettings
+        The settings of the run about to start.
+
+    Returns
+    -------
+    UnfinishedRun or None
+        None when the folder holds no journal, or the journal of a run that
+        finished or finished no column.
+
+    Raises
+    ------
+    InputError
+        The journal file is not a screening journal.
+    OSError
+        The journal cannot be read.
+    """
+    out = Path(out)
+    contents = read_journal(out / JOURNAL_NAME)
+    if not contents.unfinished:
+        return None
+    fingerprint = settings_fingerprint(settings)
+    same = sum(1 for (_key, _sha, fp) in contents.rows if fp == fingerprint)
+    return UnfinishedRun(folder=out, columns_done=contents.row_count(), with_these_settings=same)
 
 
 def default_workers() -> int:
@@ -134,7 +187,7 @@ def _open_journal(out: Path | None, settings, fingerprint, *, resume: bool, star
         return None, JournalContents()
     path = out / JOURNAL_NAME
     contents = read_journal(path) if path.exists() else JournalContents()
-    if path.exists() and not resume and not start_over and not contents.finished and contents.rows:
+    if contents.unfinished and not resume and not start_over:
         raise UnfinishedRunError(
             f"{out} holds an unfinished screening run ({contents.row_count()} columns done); "
             "resume it (--resume) or discard it (--start-over), or choose another output folder.")

@@ -158,7 +158,7 @@ def test_cancel_stops_within_a_second_and_keeps_the_finished_rows(qtbot, window,
     assert blocker.args[0].status == "cancelled"
     assert seconds < 1.0, f"the screening took {seconds:.2f} s to stop"
     assert page.table_model.rowCount() < len(columns)
-    assert "Cancelled" in page.progress_label.text()
+    assert "Screening cancelled after" in page.progress_label.text()
     assert page.start_button.isEnabled()
 
 
@@ -247,3 +247,95 @@ def test_a_workbook_sheet_row_opens_that_sheet_and_column(qtbot, window):
     assert window.data_panel.sheet.currentText() == row.sheet
     assert (a.scan.best.k, a.scan.best.widths) == (row.best_k, row.best_widths)
     assert a.scan.best.bic == pytest.approx(row.bic, rel=1e-9)
+
+
+def test_an_output_folder_keeps_the_finished_columns_and_a_cancelled_run_resumes(qtbot, window, tmp_path):
+    from clusterdesk.gui.screening_output import RESUME, START_OVER
+    from clusterdesk.screen.journal import JOURNAL_NAME
+
+    rng = np.random.default_rng(20261204)
+    columns = [_groups(rng, 1500, [0.0, 4.0, 9.0], 1.2) for _ in range(8)]
+    data = tmp_path / "data"
+    data.mkdir()
+    header = ",".join(f"reading_{j}" for j in range(len(columns)))
+    body = "\n".join(",".join(f"{c[i]:.5f}" for c in columns) for i in range(1500))
+    (data / "gauge.csv").write_text(header + "\n" + body + "\n", encoding="utf-8")
+    settings = ScanSettings(kmin=1, kmax=5, widths="both", restarts=6, seed=5)
+    out = tmp_path / "results"
+    page = window.screening
+    window.show_screening()
+    page.set_inputs([data])
+    page.set_settings(settings)
+    page.workers.setValue(1)
+    page.output.ask_folder = lambda: str(out)
+    page.output.choose_button.click()
+    assert page.output.folder == str(out.resolve()) and page.output.clear_button.isEnabled()
+
+    def fitted():
+        return [r for r in page.table_model.screen_rows if r.status == "ok"]
+
+    page.start_button.click()
+    assert page.busy and not page.output.isEnabled()
+    assert str(out.resolve()) in window.statusBar().currentMessage()  # the status bar says what runs
+    qtbot.waitUntil(lambda: len(fitted()) >= 2, timeout=60_000)
+    with qtbot.waitSignal(page.runner.finished, timeout=10_000):
+        page.cancel_button.click()
+    done_before = {r.column: r for r in fitted()}
+    assert 2 <= len(done_before) < len(columns)
+    assert "in the journal in" in page.progress_label.text()
+    assert "Screening cancelled after" in window.statusBar().currentMessage()
+    assert not (out / "summary.csv").exists()  # an interrupted run writes its journal only
+    journal = (out / JOURNAL_NAME).read_bytes()
+
+    questions = []
+    page.output.ask_unfinished = lambda found: questions.append(found) or ""  # the user thinks again
+    page.start_button.click()
+    assert not page.busy and (out / JOURNAL_NAME).read_bytes() == journal
+    assert "Nothing started" in page.progress_label.text()
+    assert (questions[0].columns_done, questions[0].with_these_settings) == (len(done_before),) * 2
+
+    page.output.ask_unfinished = lambda found: RESUME
+    with qtbot.waitSignal(page.runner.finished, timeout=120_000) as blocker:
+        page.start_button.click()
+    assert blocker.args[0].status == "done"
+    result = page.result
+    assert result.reused == len(done_before) and result.computed == len(columns) - len(done_before)
+    for column, row in done_before.items():  # the kept rows are the first run's, unchanged
+        assert next(r for r in result.rows if r.column == column) == row
+    # The table of the resumed run is the table of one uninterrupted run (our headless run, in memory).
+    whole = screen([data], settings=settings, workers=1)
+    assert Counter(map(_key, page.table_model.screen_rows)) == Counter(map(_key, whole.rows))
+    assert (out / "summary.csv").exists() and (out / "overview.html").exists()
+    message = page.progress_label.text()
+    assert f"({len(done_before)} kept from the earlier run)" in message
+    assert f"Wrote summary.csv and overview.html to {out.resolve()}" in message
+    assert window.statusBar().currentMessage() == message
+
+    # A finished run asks nothing; an unfinished one can be started over.
+    page.output.ask_unfinished = lambda found: pytest.fail("a finished run is not unfinished")
+    page.start_button.click()
+    qtbot.waitUntil(lambda: len(fitted()) >= 1, timeout=60_000)
+    with qtbot.waitSignal(page.runner.finished, timeout=10_000):
+        page.cancel_button.click()
+    page.output.ask_unfinished = lambda found: START_OVER
+    with qtbot.waitSignal(page.runner.finished, timeout=120_000):
+        page.start_button.click()
+    assert page.result.reused == 0 and page.result.computed == len(columns)
+    assert Counter(map(_key, page.result.rows)) == Counter(map(_key, whole.rows))
+
+    page.output.clear_button.click()
+    assert page.output.folder == "" and "rows stay in the window only" in page.output.label.text()
+    window.leave_screening()
+    assert window.statusBar().currentMessage() == ""  # the page's last word does not linger
+
+
+def test_the_unfinished_run_question_says_which_columns_a_resume_keeps():
+    from clusterdesk.gui.screening_output import unfinished_run_question
+    from clusterdesk.screen import UnfinishedRun
+
+    text, info = unfinished_run_question(UnfinishedRun(Path("/data/out"), 37, 37))
+    assert "stopped after 37 columns" in text and "All of them were screened" in info
+    _, info = unfinished_run_question(UnfinishedRun(Path("/data/out"), 37, 31))
+    assert "31 of them were screened with the settings shown" in info
+    _, info = unfinished_run_question(UnfinishedRun(Path("/data/out"), 1, 0))
+    assert "None of them" in info and "set that run's settings first" in info

@@ -67,4 +67,8 @@ def test_a_foreign_file_is_refused_and_a_missing_one_is_empty(tmp_path):
     other.write_text('{"kind": "start", "format": "something else"}\n', encoding="utf-8")
     with pytest.raises(InputError, match="not a ClusterDesk screening journal"):
         read_journal(other)
+    for foreign in (b"site,length\n1,2\n", b"\xff\xfe\x00binary\x00\n", b"[1, 2]\n"):
+        other.write_bytes(foreign)  # not JSON, not text, JSON of another shape: refused, never overwritten
+        with pytest.raises(InputError, match="not a ClusterDesk screening journal"):
+            read_journal(other)
     assert read_journal(tmp_path / "none.jsonl").row_count() == 0

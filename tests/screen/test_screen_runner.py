@@ -10,7 +10,8 @@ import threading
 import pytest
 
 from clusterdesk.analysis import ScanSettings
-from clusterdesk.screen import UnfinishedRunError, screen, tasks
+from clusterdesk.errors import InputError
+from clusterdesk.screen import UnfinishedRunError, screen, tasks, unfinished_run
 from clusterdesk.screen.journal import JOURNAL_NAME
 from clusterdesk.screen.summary import summary_header
 
@@ -129,6 +130,25 @@ def test_interrupted_run_resumes_without_redoing_finished_columns(inputs, tmp_pa
     assert again.computed == 0 and again.reused == total and calls == []
 
 
+def test_unfinished_run_is_found_with_the_columns_a_resume_would_keep(inputs, tmp_path):
+    folder = _small_folder(inputs, tmp_path)
+    out = tmp_path / "run"
+    assert unfinished_run(out, SETTINGS) is None  # no folder yet
+    stop = threading.Event()
+    screen([folder], settings=SETTINGS, workers=1, out=out, cancel=stop,
+           progress=lambda p: stop.set() if p.computed >= 3 else None)
+    found = unfinished_run(out, SETTINGS)
+    assert (found.folder, found.columns_done, found.with_these_settings) == (out, 3, 3)
+    other = ScanSettings(kmin=1, kmax=2, widths="separate", restarts=2, seed=7)
+    assert unfinished_run(out, other).with_these_settings == 0
+    resumed = screen([folder], settings=SETTINGS, workers=1, out=out, resume=True)
+    assert resumed.reused == found.with_these_settings
+    assert unfinished_run(out, SETTINGS) is None  # the run finished
+    (out / JOURNAL_NAME).write_text("not a journal\n", encoding="utf-8")
+    with pytest.raises(InputError, match="not a ClusterDesk screening journal"):
+        unfinished_run(out, SETTINGS)
+
+
 def test_resume_redoes_changed_files_and_other_settings(inputs, tmp_path, monkeypatch):
     folder = _small_folder(inputs, tmp_path)
     out = tmp_path / "run"
@@ -163,7 +183,6 @@ def test_nothing_to_screen_and_bad_settings(tmp_path):
     (tmp_path / "empty.csv").write_bytes(b"")
     result = screen([tmp_path / "empty.csv", tmp_path / "missing.csv"], settings=SETTINGS, workers=1)
     assert result.counts == {"ok": 0, "failed": 2, "skipped": 0}
-    from clusterdesk.errors import InputError
 
     with pytest.raises(InputError, match="kmin"):
         screen([tmp_path], settings=ScanSettings(kmin=4, kmax=2), workers=1)

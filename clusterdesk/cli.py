@@ -11,6 +11,7 @@ load Qt.
 from __future__ import annotations
 
 import argparse
+import math
 import os
 import sys
 
@@ -69,13 +70,21 @@ def format_ranking(result) -> str:
     return "\n".join(lines)
 
 
+def _number(value: float, spec: str) -> str:
+    """A number in a plain-text table; a missing one (NaN: no cut point, no interval) is "none"."""
+    if math.isnan(value):
+        width = int("".join(ch for ch in spec.split(".")[0] if ch.isdigit()) or 0)
+        return f"{'none':>{width}}"
+    return format(value, spec)
+
+
 def format_components(model) -> str:
     """The components of one model as a plain-text table, with cut points."""
     m = model.mixture
     cuts = m.cut_points()
     lines = [f"{'component':>9} {'weight':>8} {'mean':>12} {'sd':>12} {'cut to next':>12}"]
     for j in range(m.k):
-        cut = f"{cuts[j]:12.4g}" if j < m.k - 1 else " " * 12
+        cut = _number(cuts[j], "12.4g") if j < m.k - 1 else " " * 12
         lines.append(f"{j + 1:>9} {m.weights[j]:>8.4f} {m.means[j]:>12.5g} {m.sds[j]:>12.5g} {cut}")
     return "\n".join(lines)
 
@@ -255,7 +264,8 @@ def format_intervals(boot) -> str:
     lines = [f"\n{boot.describe()}",
              f"{'quantity':<16} {'estimate':>12} {'lower':>12} {'upper':>12} {'std. error':>12}"]
     for name, est, lo, hi, se in boot.table_rows():
-        lines.append(f"{name:<16} {est:>12.5g} {lo:>12.5g} {hi:>12.5g} {se:>12.4g}")
+        lines.append(f"{name:<16} {_number(est, '>12.5g')} {_number(lo, '>12.5g')} {_number(hi, '>12.5g')} "
+                     f"{_number(se, '>12.4g')}")
     lines += [f"note: {n}" for n in boot.notes]
     return "\n".join(lines)
 

@@ -221,3 +221,22 @@ def test_display_check_reads_the_environment():
     assert not display_missing({"QT_QPA_PLATFORM": "offscreen"}, "linux")
     assert not display_missing({}, "darwin")
     assert not display_missing({}, "win32")
+
+
+def test_a_missing_cut_point_prints_as_none_not_nan():
+    # A narrow small component dominated at its own mean by a wide one: the
+    # two weighted densities do not cross between the means, so there is no
+    # cut point (checked here by evaluating both with scipy.stats.norm).
+    from types import SimpleNamespace
+
+    from scipy import stats
+
+    from clusterdesk.cli import format_components
+    from clusterdesk.engine.mixture import Mixture
+
+    mixture = Mixture(np.array([0.08, 0.92]), np.array([0.0, 1.5]), np.array([0.26, 2.0]))
+    grid = np.linspace(0.0, 1.5, 301)
+    assert np.all(0.08 * stats.norm.pdf(grid, 0.0, 0.26) < 0.92 * stats.norm.pdf(grid, 1.5, 2.0))
+    text = format_components(SimpleNamespace(mixture=mixture))
+    first = text.splitlines()[1].split()
+    assert first[0] == "1" and first[-1] == "none" and "nan" not in text

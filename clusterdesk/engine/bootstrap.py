@@ -31,7 +31,7 @@ from .replicates import draw_replicates, plan_replicates, refit_replicates
 from .validation import Sample
 
 __all__ = ["BootstrapResult", "bootstrap_model", "percentile_interval", "bootstrap_se",
-           "replicate_cut_points", "METHODS", "CUT_POINT_CAUTION"]
+           "replicate_cut_points", "cut_point_intervals", "METHODS", "CUT_POINT_CAUTION"]
 
 METHODS = ("resample", "parametric")
 MIN_REPLICATES = 10
@@ -87,11 +87,17 @@ class BootstrapResult:
     weight_interval, mean_interval, sd_interval : ndarray, shape (k, 2)
         Lower and upper percentile limits.
     cut_point_interval : ndarray, shape (k-1, 2)
-        From the replicates with a cut point (see ``cut_points_missing``).
+        From the replicates with a cut point (see ``cut_points_missing``);
+        NaN where withheld (see ``cut_points_withheld``).
     weight_se, mean_se, sd_se : ndarray, shape (k,)
     cut_point_se : ndarray, shape (k-1,)
+        NaN where withheld.
     cut_points_missing : ndarray of int, shape (k-1,)
         Usable replicates without that cut point.
+    cut_points_withheld : ndarray of bool, shape (k-1,)
+        No interval or standard error is given for that cut point: the fit
+        itself has none, or more usable replicates lack it than the
+        interval's tails may leave out (see :func:`cut_point_intervals`).
     notes : tuple of str
         Plain-words remarks: the path, failures, relabelling, cautions.
     """
@@ -122,6 +128,7 @@ class BootstrapResult:
     sd_se: np.ndarray
     cut_point_se: np.ndarray
     cut_points_missing: np.ndarray
+    cut_points_withheld: np.ndarray
     notes: tuple = ()
 
     @property
@@ -227,6 +234,46 @@ def replicate_cut_points(weights, means, sds) -> np.ndarray:
                       dtype=np.float64).reshape(w.shape[0], -1)
 
 
+def cut_point_intervals(cuts, reference_cuts, level: float):
+    """Percentile intervals and standard errors of the cut points, withheld where they would mislead.
+
+    A replicate whose two components do not cross between their means has no
+    cut point there (NaN). The interval from the replicates that do have one
+    describes the cut point *given that it exists*. It is withheld (NaN, with
+    the standard error) when the fit itself has no such cut point, or when
+    more than ``(1 - level)`` of the usable replicates lack it: then even an
+    interval spanning every replicate that has the cut point would hold it
+    with probability below ``level``, so no interval at that level exists.
+    (Our rule, from the coverage arithmetic of a percentile interval.)
+
+    Parameters
+    ----------
+    cuts : array_like, shape (B, k-1)
+        Cut points of the usable replicates (:func:`replicate_cut_points`).
+    reference_cuts : array_like, shape (k-1,)
+        The fit's own cut points (:meth:`.mixture.Mixture.cut_points`).
+    level : float
+        Confidence level in (0, 1).
+
+    Returns
+    -------
+    interval : ndarray, shape (k-1, 2)
+    se : ndarray, shape (k-1,)
+    missing : ndarray of int, shape (k-1,)
+        Replicates without the cut point.
+    withheld : ndarray of bool, shape (k-1,)
+    """
+    cuts = np.asarray(cuts, dtype=np.float64).reshape(len(cuts), -1)
+    missing = np.sum(~np.isfinite(cuts), axis=0).astype(np.int64)
+    withheld = ~np.isfinite(np.asarray(reference_cuts, dtype=np.float64)) | (
+        missing > (1.0 - level) * cuts.shape[0] + 1e-9)
+    interval = percentile_interval(cuts, level).reshape(-1, 2)
+    se = bootstrap_se(cuts)
+    interval[withheld] = np.nan
+    se[withheld] = np.nan
+    return interval, se, missing, withheld
+
+
 def _check_arguments(model, sample, replicates, method, level):
     if not isinstance(model, FittedModel):
         raise InputError(f"bootstrap() needs a fitted model from clusterdesk.fit or scan; "
@@ -321,10 +368,12 @@ def _summarise(joined, model, plan, replicates, level) -> BootstrapResult:
     ok = ~collapsed & ~failed
     w, m, s = (joined[key][ok] for key in ("weights", "means", "sds"))
     cuts = replicate_cut_points(w, m, s)
-    missing = np.sum(~np.isfinite(cuts), axis=0)
+    reference_cuts = model.mixture.cut_points() if model.mixture.k > 1 else np.empty(0)
+    cut_interval, cut_se, missing, withheld = cut_point_intervals(cuts, reference_cuts, level)
     counts = dict(n_ok=int(ok.sum()), n_failed=int(failed.sum()), n_collapsed=int(collapsed.sum()),
                   n_relabelled=int(joined["relabelled"][ok].sum()))
-    notes = _notes(plan, replicates, missing=missing, level=level, **counts)
+    notes = _notes(plan, replicates, missing=missing, withheld=withheld,
+                   fitted_cuts=np.isfinite(reference_cuts), level=level, **counts)
     return BootstrapResult(
         method=plan.method, path=plan.path, support_size=plan.support_size,
         replicates=replicates, level=level, seed=plan.seed, reference=model.mixture,
@@ -334,10 +383,10 @@ def _summarise(joined, model, plan, replicates, level) -> BootstrapResult:
         weight_interval=_frozen(percentile_interval(w, level)),
         mean_interval=_frozen(percentile_interval(m, level)),
         sd_interval=_frozen(percentile_interval(s, level)),
-        cut_point_interval=_frozen(percentile_interval(cuts, level).reshape(-1, 2)),
+        cut_point_interval=_frozen(cut_interval),
         weight_se=_frozen(bootstrap_se(w)), mean_se=_frozen(bootstrap_se(m)),
-        sd_se=_frozen(bootstrap_se(s)), cut_point_se=_frozen(bootstrap_se(cuts)),
-        cut_points_missing=_frozen(missing.astype(np.int64)), notes=tuple(notes))
+        sd_se=_frozen(bootstrap_se(s)), cut_point_se=_frozen(cut_se),
+        cut_points_missing=_frozen(missing), cut_points_withheld=_frozen(withheld), notes=tuple(notes))
 
 
 _PATH_WORDS = {
@@ -351,7 +400,12 @@ _PATH_WORDS = {
 }
 
 
-def _notes(plan, replicates, *, n_ok, n_failed, n_collapsed, n_relabelled, missing, level):
+def _replicates(count: int) -> str:
+    return f"{count} replicate{'' if count == 1 else 's'}"
+
+
+def _notes(plan, replicates, *, n_ok, n_failed, n_collapsed, n_relabelled, missing, withheld, fitted_cuts,
+           level):
     how = "Resampling" if plan.method == "resample" else "Parametric bootstrap"
     notes = [f"{how}: " + _PATH_WORDS[plan.path].format(size=plan.support_size) + "."]
     if plan.binning_offset is not None:
@@ -360,16 +414,29 @@ def _notes(plan, replicates, *, n_ok, n_failed, n_collapsed, n_relabelled, missi
         notes.append("Replicates were refitted to the bins' midpoints and shifted by the difference "
                      f"that fitting midpoints makes on the sample itself ({size} of a component's "
                      "variance), so they centre on the fit of the exact values.")
-    if n_failed or n_collapsed:
-        notes.append(f"{n_failed} of {replicates} replicates did not converge and {n_collapsed} "
-                     f"lost a component (collapsed); the intervals use the other {n_ok}.")
+    lost = []
+    if n_failed:
+        lost.append(f"{n_failed} did not converge")
+    if n_collapsed:
+        lost.append(f"{n_collapsed} lost a component (collapsed)")
+    if lost:
+        notes.append(f"Of {replicates} replicates, {' and '.join(lost)}; the intervals use the other {n_ok}.")
     if n_relabelled:
-        notes.append(f"{n_relabelled} replicates came out with their components in another order; "
+        notes.append(f"{_replicates(n_relabelled)} came out with their components in another order; "
                      "they were matched to the fitted components by the values each one explains.")
     for j, count in enumerate(missing):
-        if count:
-            notes.append(f"In {count} replicates components {j + 1} and {j + 2} do not cross "
-                         f"between their means; cut point {j + 1}-{j + 2} uses the others.")
+        pair, cut = f"components {j + 1} and {j + 2}", f"cut point {j + 1}-{j + 2}"
+        if not fitted_cuts[j]:
+            notes.append(f"In the fit, {pair} do not cross between their means, so there is no {cut} "
+                         "and no interval for it.")
+        elif withheld[j]:
+            notes.append(f"In {count} of {n_ok} usable replicates {pair} do not cross between their "
+                         f"means: more than the {1.0 - level:.0%} an interval at {level:.0%} may leave out, "
+                         f"so no interval or standard error is given for {cut}; the boundary between "
+                         "them is not stable.")
+        elif count:
+            notes.append(f"In {_replicates(count)} {pair} do not cross between their means; "
+                         f"the interval of {cut} uses the others.")
     if n_ok and math.floor((n_ok + 1) * 0.5 * (1.0 - level) + 1e-9) < 1:
         notes.append(f"{n_ok} usable replicates are too few for {level:.0%} intervals; the limits "
                      "are the smallest and largest replicate values. Use more replicates.")

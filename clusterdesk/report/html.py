@@ -17,6 +17,7 @@ import numpy as np
 
 from .._version import __version__
 from ..atomic import write_text_atomic
+from ..engine.bootstrap import CUT_POINT_CAUTION
 from . import figures
 from .tables import CAUTION, components_table, ranking_table, treatment_words
 
@@ -135,8 +136,12 @@ def _model_section(analysis) -> str:
 
 def _intervals_html(intervals) -> str:
     rows = intervals.table_rows()
+    # How the replicates were drawn, which failed, which cut points have no interval and why
+    # (an empty cell is explained here); the caution stands once, below.
+    notes = [n for n in intervals.notes if n != CUT_POINT_CAUTION]
     return (f"<h3>Bootstrap intervals ({html.escape(intervals.describe())})</h3>"
-            + _table(intervals.table_header(), rows, text_columns=(0,)))
+            + _table(intervals.table_header(), rows, text_columns=(0,))
+            + "".join(f'<p class="muted">Note: {html.escape(n)}</p>' for n in notes))
 
 
 def _figures_section(analysis) -> str:

@@ -21,7 +21,7 @@ import pytest
 from scipy import optimize, stats
 
 import clusterdesk
-from clusterdesk.engine.bootstrap import bootstrap_model, percentile_interval
+from clusterdesk.engine.bootstrap import bootstrap_model, cut_point_intervals, percentile_interval
 from clusterdesk.engine.fitting import FitSettings
 from clusterdesk.engine.labels import match_to_reference, posterior_agreement
 from clusterdesk.engine.mixture import Mixture
@@ -255,6 +255,7 @@ def test_replicate_cut_points_match_root_finding():
         assert result.cut_points[b, 0] == pytest.approx(expected, rel=1e-10)
     lo, hi = result.cut_point_interval[0]
     assert lo < model.mixture.cut_points()[0] < hi
+    assert result.cut_points_withheld.tolist() == [False] and result.cut_points_missing.tolist() == [0]
 
 
 def test_shared_width_cut_points_match_the_equal_variance_formula():
@@ -266,6 +267,51 @@ def test_shared_width_cut_points_match_the_equal_variance_formula():
     w, m, s = result.weights, result.means, result.sds[:, 0]
     formula = 0.5 * (m[:, 0] + m[:, 1]) + s**2 * np.log(w[:, 0] / w[:, 1]) / (m[:, 1] - m[:, 0])
     np.testing.assert_allclose(result.cut_points[:, 0], formula, rtol=1e-10)
+
+
+def test_cut_point_interval_is_withheld_when_too_many_replicates_lack_it():
+    # Percentile interval of the replicates that have the cut point (Efron &
+    # Tibshirani 1993, §13.3: order statistics j and B + 1 - j of the finite
+    # entries). Withholding when more than (1 - level) of the replicates lack
+    # the cut point, or when the fit has none, is our rule (the coverage
+    # arithmetic of a percentile interval), not a published one.
+    rng = np.random.default_rng(40)
+    cuts = rng.normal(5.0, 0.3, (200, 3))
+    cuts[:10, 0] = np.nan    # 10 of 200 = 5 %: still an interval (from the other 190)
+    cuts[:11, 1] = np.nan    # 11 of 200 > 5 %: withheld
+    interval, se, missing, withheld = cut_point_intervals(cuts, [4.9, 5.1, np.nan], 0.95)
+    assert missing.tolist() == [10, 11, 0]
+    assert withheld.tolist() == [False, True, True]  # the third: the fit itself has no cut point
+    finite = np.sort(cuts[10:, 0])
+    j = int(np.floor((190 + 1) * 0.025))
+    assert interval[0].tolist() == [finite[j - 1], finite[190 - j]]
+    assert se[0] == pytest.approx(np.std(finite, ddof=1), rel=1e-12)
+    assert np.all(np.isnan(interval[1:])) and np.all(np.isnan(se[1:]))
+    interval90, *_, withheld90 = cut_point_intervals(cuts, [4.9, 5.1, 5.0], 0.90)
+    assert withheld90.tolist() == [False, False, False]  # 11 of 200 is within 10 %
+    assert np.all(np.isfinite(interval90))
+
+
+@pytest.mark.parametrize("seed, fit_has_cut", [(0, False), (1, True)])
+def test_an_unstable_cut_point_gets_no_interval_and_a_note_says_why(seed, fit_has_cut):
+    # A narrow small group on the shoulder of a wide one (synthetic, seeded):
+    # whether the two fitted densities cross between their means changes from
+    # resample to resample. Seed 0: the fit itself has no cut point; seed 1: it
+    # has one, but 40 of 100 replicates do not (more than the 5 % a 95 %
+    # interval may leave out). Either way no interval is reported.
+    rng = np.random.default_rng(seed)
+    x = np.concatenate([rng.normal(0.0, 0.25, 120), rng.normal(1.5, 2.0, 1380)])
+    model = clusterdesk.fit(x, 2)
+    assert np.isfinite(model.mixture.cut_points()[0]) == fit_has_cut
+    result = clusterdesk.bootstrap(x, model, replicates=100, seed=1)
+    assert result.cut_points_missing[0] > 0.05 * result.n_ok
+    assert result.cut_points_withheld.tolist() == [True]
+    assert np.all(np.isnan(result.cut_point_interval)) and np.isnan(result.cut_point_se[0])
+    assert np.all(np.isfinite(result.mean_interval))  # the other quantities keep theirs
+    wording = "not stable" if fit_has_cut else "there is no cut point 1-2"
+    assert any(wording in note for note in result.notes)
+    row = result.table_rows()[-1]
+    assert row[0] == "cut point 1-2" and np.isnan(row[2]) and np.isnan(row[3])
 
 
 # ------------------------------------------------------ failed and collapsed

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import base64
 import hashlib
+import html
 import re
 from html.parser import HTMLParser
 from pathlib import Path
@@ -64,6 +65,10 @@ def test_report_holds_every_section(report):
     assert path.name in text
     assert hashlib.sha256(path.read_bytes()).hexdigest() in text
     assert CAUTION in text
+    # The bootstrap's notes (how the replicates were drawn, ...) stand under its table.
+    for note in analysis.intervals.notes:
+        if "not a validated" not in note:
+            assert html.escape(note) in text
 
 
 def test_report_is_self_contained(report):

@@ -329,8 +329,14 @@ class Analysis:
 
     @property
     def fit_notes(self) -> tuple:
-        """Notes on the scan as a whole (e.g. far-out values), then on the chosen model; each once."""
-        return tuple(dict.fromkeys(self._need_scan().notes + self.chosen.notes))
+        """Notes on the scan as a whole (e.g. far-out values), then on the chosen model; each once.
+
+        The chosen model's notes end with a sentence for each pair of neighbouring
+        components without a cut point (:meth:`.engine.mixture.Mixture.cut_point_notes`),
+        so an empty cut point cell is never left unexplained.
+        """
+        chosen = self.chosen
+        return tuple(dict.fromkeys(self._need_scan().notes + chosen.notes + chosen.mixture.cut_point_notes()))
 
     # -------------------------------------------------------------- intervals
     def compute_intervals(self, *, replicates: int = 200, method: str = "resample", level: float = 0.95,

@@ -195,3 +195,15 @@ def test_leaving_out_far_values_needs_some(tmp_path):
     analysis.run_scan()
     with pytest.raises(InputError, match="nothing to leave out"):
         analysis.data_leaving_out_far_values()
+
+
+def test_fit_notes_explain_a_missing_cut_point():
+    # The shoulder data of tests/engine/test_bootstrap.py (synthetic, seed 0): the
+    # fitted pair does not cross between its means (checked with scipy.stats there).
+    rng = np.random.default_rng(0)
+    x = np.concatenate([rng.normal(0.0, 0.25, 120), rng.normal(1.5, 2.0, 1380)])
+    analysis = Analysis.from_text("reading\n" + "\n".join(f"{v:.6f}" for v in x),
+                                  settings=ScanSettings(kmin=2, kmax=2, widths="separate", seed=0))
+    analysis.run_scan()
+    assert np.isnan(analysis.chosen.mixture.cut_points()[0])
+    assert analysis.chosen.mixture.cut_point_notes()[0] in analysis.fit_notes

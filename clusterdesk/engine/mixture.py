@@ -445,6 +445,29 @@ class Mixture:
         w, m, s = self.weights, self.means, self.sds
         return np.atleast_1d(cut_point_between(w[:-1], m[:-1], s[:-1], w[1:], m[1:], s[1:]))
 
+    def cut_point_notes(self) -> tuple:
+        """A sentence for each pair of neighbours without a cut point (see :meth:`cut_points`).
+
+        Returns
+        -------
+        tuple of str
+            E.g. "Components 1 and 2 do not cross between their means, so there
+            is no cut point between them: everywhere between the two means a
+            value is more likely from component 2 than from component 1."
+        """
+        notes = []
+        for j in np.flatnonzero(np.isnan(self.cut_points())) if self.k > 1 else ():
+            # One of the two dominates the whole stretch between the means: ask at its middle.
+            middle = 0.5 * (self.means[j] + self.means[j + 1])
+            pair = slice(j, j + 2)
+            log_weighted = (np.log(self.weights[pair]) - np.log(self.sds[pair])
+                            - 0.5 * ((middle - self.means[pair]) / self.sds[pair]) ** 2)
+            more, less = (j + 1, j + 2) if log_weighted[0] > log_weighted[1] else (j + 2, j + 1)
+            notes.append(f"Components {j + 1} and {j + 2} do not cross between their means, so there is no "
+                         f"cut point between them: everywhere between the two means a value is more likely "
+                         f"from component {more} than from component {less}.")
+        return tuple(notes)
+
     def _score(self, x: np.ndarray) -> np.ndarray:
         """``d/dx log f(x)`` = posterior-weighted ``(m_j - x) / s_j^2``; never underflows."""
         x = np.asarray(x, dtype=np.float64)

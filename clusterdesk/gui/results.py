@@ -263,5 +263,6 @@ class ComponentsPanel(QGroupBox):
         on = "" if scale == "linear" else f" Means, sds and cut points are on the {scale} scale."
         self.heading.setText(f"<b>{model_words(chosen.k, chosen.widths)}</b>: log-likelihood "
                              f"{chosen.loglik:.2f}; {chosen.restarts_agreeing} of {chosen.restarts} "
-                             f"restarts agree.{on}" + "".join(f" Note: {html.escape(n)}" for n in chosen.notes))
+                             f"restarts agree.{on}" + "".join(f" Note: {html.escape(n)}" for n in
+                                                               chosen.notes + chosen.mixture.cut_point_notes()))
         self.caution.setVisible(chosen.k > 1)

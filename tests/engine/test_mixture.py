@@ -507,3 +507,25 @@ def test_pickle_keeps_every_bit_of_the_weights():
         assert again.weights.tobytes() == mixture.weights.tobytes()
         assert again == mixture
         assert not again.weights.flags.writeable
+
+
+@pytest.mark.parametrize("weights, means, sds, missing", [
+    ([0.08, 0.92], [0.0, 1.5], [0.26, 2.0], {0}),                   # narrow light one on a wide one's shoulder
+    ([0.45, 0.10, 0.45], [0.0, 1.0, 2.0], [1.0, 2.5, 1.0], {0, 1}),   # a wide light middle one, under both
+    ([0.5, 0.5], [0.0, 3.0], [1.0, 1.0], set()),                    # two clear groups: a cut point
+])
+def test_cut_point_notes_name_the_pairs_without_one_and_which_side_wins(weights, means, sds, missing):
+    # Reference: the weighted densities evaluated with scipy.stats.norm on a grid
+    # between the two means; which of the two is larger there throughout.
+    mix = Mixture(np.array(weights), np.array(means), np.array(sds))
+    notes = mix.cut_point_notes()
+    assert {j for j in range(mix.k - 1) if np.isnan(mix.cut_points()[j])} == missing
+    assert len(notes) == len(missing)
+    for note, j in zip(notes, sorted(missing)):
+        grid = np.linspace(means[j], means[j + 1], 401)
+        lower = weights[j] * stats.norm.pdf(grid, means[j], sds[j])
+        upper = weights[j + 1] * stats.norm.pdf(grid, means[j + 1], sds[j + 1])
+        more, less = (j + 1, j + 2) if np.all(lower > upper) else (j + 2, j + 1)
+        assert np.all(lower > upper) or np.all(upper > lower)
+        assert note.startswith(f"Components {j + 1} and {j + 2} do not cross between their means")
+        assert note.endswith(f"more likely from component {more} than from component {less}.")

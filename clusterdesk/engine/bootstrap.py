@@ -58,7 +58,9 @@ class BootstrapResult:
     Attributes
     ----------
     method : {"resample", "parametric"}
-    path : {"values", "fine histogram", "grid", "simulated values", "intervals"}
+    path : str
+        One of "values", "fine histogram", "grid", "simulated values",
+        "intervals", "recording cells", "observed intervals".
         How replicate data were drawn (see :mod:`clusterdesk.engine.replicates`).
     support_size : int
         Distinct values, bins or grid cells the counts were drawn over (the
@@ -397,6 +399,12 @@ _PATH_WORDS = {
     "simulated values": "{size} values simulated from the fit for each replicate",
     "intervals": "multinomial counts over the {size} distinct intervals, each replicate refitted "
                  "by the likelihood of intervals",
+    "recording cells": "values simulated from the fit and recorded as the data were, i.e. counts over "
+                       "{size} cells (the observed intervals, the empty cells between them and beyond), "
+                       "each replicate refitted by the likelihood of intervals",
+    "observed intervals": "counts over the {size} observed intervals only (they overlap, so there is "
+                          "no single way to record a simulated value; an approximation that understates "
+                          "the spread), each replicate refitted by the likelihood of intervals",
 }
 
 

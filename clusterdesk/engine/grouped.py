@@ -45,6 +45,7 @@ from .fitting import (FitSettings, FittedModel, _best_index, _count_agreeing, _r
                       degenerate_fits, model_with_criteria)
 from .interval_derivatives import IntervalTrialPoints
 from .mixture import Mixture
+from .recording_cells import recording_cells
 from .starts import make_starts
 from .validation import Sample, weighted_mean_sd
 from ..errors import InputError
@@ -246,9 +247,15 @@ def interval_plan(sample: Sample, model: FittedModel, method: str, seed: int,
                   settings: FitSettings):
     """The bootstrap plan of a model fitted to intervals (path ``"intervals"``).
 
-    Counts are drawn over the distinct intervals: with their observed shares
-    (resampling the observations), or with the fitted mixture's interval
-    probabilities renormalised over the observed intervals (parametric).
+    Resampling draws counts over the distinct observed intervals with their
+    observed shares (path ``"intervals"``). The parametric bootstrap records
+    values simulated from the fit as the data were recorded: counts over the
+    observed intervals, the empty cells between them and the cells beyond
+    (:func:`.recording_cells.recording_cells`, path ``"recording cells"``),
+    with the fit's probabilities. When observed intervals overlap there is
+    no such tiling; the counts are then drawn over the observed intervals
+    with the fit's probabilities renormalised over them (path
+    ``"observed intervals"``, which a note names as an approximation).
 
     Returns
     -------
@@ -261,16 +268,24 @@ def interval_plan(sample: Sample, model: FittedModel, method: str, seed: int,
     mix = model.mixture
     reference = (mix.weights.copy(), (mix.means - data.center) / data.scale,
                  np.maximum((mix.sds / data.scale) ** 2, data.var_floor))
+    support, lower, upper, path = data.x, data.lower, data.upper, "intervals"
     if method == "resample":
         p = data.c / data.n
     else:
-        p = np.exp(_interval_log_masses(sample.lower, sample.upper, mix))
-        p = p.sum(axis=1) / p.sum()
-    return ReplicatePlan(method=method, path="intervals", support=data.x, probabilities=p,
+        cells = recording_cells(sample.values, sample.lower, sample.upper, mix, sample.n, settings.max_bins)
+        if cells is None:
+            path = "observed intervals"
+            p = np.exp(_interval_log_masses(sample.lower, sample.upper, mix))
+            p = p.sum(axis=1) / p.sum()
+        else:
+            path, p = "recording cells", cells.probabilities
+            support, lower, upper = ((a - data.center) / data.scale
+                                     for a in (cells.values, cells.lower, cells.upper))
+    return ReplicatePlan(method=method, path=path, support=support, probabilities=p,
                          n=int(round(sample.n)), k=mix.k, shared=model.widths == "shared",
                          reference=reference, var_floor=data.var_floor, center=data.center,
                          scale=data.scale, grid_step=None, grid_origin=float(data.x[0]),
-                         seed=int(seed), settings=settings, lower=data.lower, upper=data.upper)
+                         seed=int(seed), settings=settings, lower=lower, upper=upper)
 
 
 class _IntervalData:

@@ -35,10 +35,18 @@ How a replicate's data are drawn (the *path*, reported with the result):
     Parametric bootstrap of a small sample off any grid: ``n`` values drawn
     from the fitted mixture for every replicate, one row each.
 ``"intervals"``
-    A model fitted to intervals (:mod:`.grouped`): multinomial counts over
-    the distinct intervals (their observed shares, or the fit's interval
-    probabilities for the parametric bootstrap), refitted by the interval
-    likelihood; there is no Newton endgame on this path.
+    Resampling a model fitted to intervals (:mod:`.grouped`): multinomial
+    counts over the distinct intervals with their observed shares, refitted
+    by the interval likelihood; there is no Newton endgame on this path.
+``"recording cells"``
+    Parametric bootstrap of a model fitted to intervals: counts over the
+    observed intervals, the empty cells between them and the cells beyond
+    (:mod:`.recording_cells`), with the fit's probabilities, refitted as
+    ``"intervals"``.
+``"observed intervals"``
+    The same when the observed intervals overlap and cannot be extended to a
+    tiling: counts over the observed intervals only, with the fit's
+    probabilities renormalised over them (an approximation, noted).
 """
 
 from __future__ import annotations
@@ -74,7 +82,9 @@ class ReplicatePlan:
     Attributes
     ----------
     method : {"resample", "parametric"}
-    path : {"values", "fine histogram", "grid", "simulated values"}
+    path : str
+        See the module docstring: "values", "fine histogram", "grid",
+        "simulated values", "intervals", "recording cells" or "observed intervals".
     support : ndarray, shape (m,) or None
         Points the replicate counts are drawn over (None for simulated values).
     probabilities : ndarray, shape (m,) or None

@@ -21,7 +21,7 @@ from .engine.bootstrap import bootstrap_model
 from .engine.fitcheck import goodness_of_fit
 from .engine.fitting import FittedModel
 from .engine.scan import ScanResult, scan_models
-from .engine.treatment import resolve_treatment
+from .engine.treatment import interval_offsets, resolve_treatment
 from .errors import InputError
 from .io import Measurements, read_measurements
 from .io import reasons as R
@@ -70,6 +70,10 @@ class ScanSettings:
     resolution : float or None, default None
         Recording step (or class width) on the original scale; None: the one
         detected when the values were read.
+    value_at : {"middle", "lower", "upper"}, default "middle"
+        Where each recorded value sits in its interval: the middle (rounded
+        readings), the lower end (a class named by its lower end, e.g. a
+        length class 12 holding 12.0 to 12.99) or the upper end.
     """
 
     kmin: int = 1
@@ -79,6 +83,7 @@ class ScanSettings:
     seed: int = 0
     treatment: str = "auto"
     resolution: float | None = None
+    value_at: str = "middle"
 
 
 @dataclass
@@ -151,27 +156,30 @@ class Analysis:
         """The resolution or interval ends handed to the engine, on the analysis scale.
 
         Each kept value ``x`` lies in ``[x - h/2, x + h/2)`` on the original
-        scale (``h`` the settings' resolution, else the detected one); on a log
-        scale the ends are transformed, an end at or below zero becoming
-        ``-inf``.
+        scale (``h`` the settings' resolution, else the detected one), or in
+        ``[x, x + h)`` or ``[x - h, x)`` when the settings' ``value_at`` is
+        "lower" or "upper"; on a log scale the ends are transformed, an end at
+        or below zero becoming ``-inf``.
 
         Returns
         -------
         dict
-            ``resolution`` (float or None) and ``bounds`` ((lower, upper) or None),
-            as :func:`clusterdesk.scan` takes them.
+            ``resolution`` (float or None), ``bounds`` ((lower, upper) or None)
+            and ``value_at``, as :func:`clusterdesk.scan` takes them.
         """
         m = self._need_measurements()
         s = self.settings if settings is None else settings
         step = s.resolution if s.resolution is not None else m.resolution
         if step is None or s.treatment == "exact":
-            return {"resolution": None, "bounds": None}
+            return {"resolution": None, "bounds": None, "value_at": None}
         if m.scale == "linear":
-            return {"resolution": step, "bounds": None}
+            return {"resolution": step, "bounds": None, "value_at": s.value_at}
         log = np.log if m.scale == "ln" else np.log10
+        lo, hi = interval_offsets(s.value_at, step)
         with np.errstate(divide="ignore", invalid="ignore"):
-            lower = np.where(m.values - step / 2 > 0, log(np.maximum(m.values - step / 2, 0.0)), -np.inf)
-        return {"resolution": None, "bounds": (lower, log(m.values + step / 2))}
+            lower = np.where(m.values + lo > 0, log(np.maximum(m.values + lo, 0.0)), -np.inf)
+            upper = np.where(m.values + hi > 0, log(np.maximum(m.values + hi, 0.0)), -np.inf)
+        return {"resolution": None, "bounds": (lower, upper), "value_at": s.value_at}
 
     def likelihood_input(self, settings: ScanSettings | None = None) -> dict:
         """Everything the likelihood is computed from: ``values``, ``counts``, ``resolution``, ``bounds``.
@@ -192,7 +200,7 @@ class Analysis:
         kept_counts = np.ones(values.size) if counts is None else counts
         return {"values": np.concatenate([values, limits]),
                 "counts": np.concatenate([kept_counts, limit_counts]),
-                "resolution": None,
+                "resolution": None, "value_at": given["value_at"],
                 "bounds": (np.concatenate([lower, np.where(below, -np.inf, limits)]),
                            np.concatenate([upper, np.where(below, limits, np.inf)]))}
 
@@ -253,7 +261,7 @@ class Analysis:
         """
         s = self.settings if settings is None else settings
         m = self._need_measurements()
-        key = (s.treatment, s.resolution)
+        key = (s.treatment, s.resolution, s.value_at)
         if self._prepared is None or self._prepared[0][0] is not m or self._prepared[0][1:] != key:
             given = self.likelihood_input(s)
             self._prepared = ((m, *key), resolve_treatment(treatment=s.treatment, **given))
@@ -587,5 +595,5 @@ def _interval_ends(values, given: dict):
     """Lower and upper ends of the kept values' intervals, from :meth:`Analysis.interval_input`'s answer."""
     if given["bounds"] is not None:
         return given["bounds"]
-    step = given["resolution"]
-    return values - step / 2, values + step / 2
+    lo, hi = interval_offsets(given["value_at"] or "middle", given["resolution"])
+    return values + lo, values + hi

@@ -19,7 +19,7 @@ __all__ = ["scan", "fit", "bootstrap", "likelihood_ratio_test"]
 
 def scan(values, *, counts=None, kmin=1, kmax=6, widths="separate", restarts=10, seed=0,
          progress=None, cancel=None, treatment="auto", resolution=None, bounds=None,
-         workers=None) -> ScanResult:
+         workers=None, value_at=None) -> ScanResult:
     """Fit mixtures of kmin..kmax normal components and rank them by BIC.
 
     Parameters
@@ -53,6 +53,11 @@ def scan(values, *, counts=None, kmin=1, kmax=6, widths="separate", restarts=10,
     bounds : tuple (lower, upper) of array_like, each shape (n,), optional
         Each value's interval end by end (``-inf`` for a reading below a
         detection limit); used with ``"auto"`` and ``"intervals"``.
+    value_at : {"middle", "lower", "upper"}, optional
+        Where each value sits in its interval of width ``resolution``:
+        "middle" (default; rounded readings), "lower" (a class named by its
+        lower end, e.g. a length class 12 holding 12.0 to 12.99: ``[x, x + h)``)
+        or "upper" (``[x - h, x)``).
     workers : int, optional
         Worker processes for large samples (many distinct values, where one
         model takes seconds). Default: the cores available (at most 2) in the
@@ -74,11 +79,12 @@ def scan(values, *, counts=None, kmin=1, kmax=6, widths="separate", restarts=10,
     """
     return scan_models(values, counts=counts, kmin=kmin, kmax=kmax, widths=widths,
                        restarts=restarts, seed=seed, progress=progress, cancel=cancel,
-                       treatment=treatment, resolution=resolution, bounds=bounds, workers=workers)
+                       treatment=treatment, resolution=resolution, bounds=bounds, workers=workers,
+                       value_at=value_at)
 
 
 def fit(values, k, *, counts=None, widths="separate", restarts=10, seed=0, cancel=None,
-        treatment="auto", resolution=None, bounds=None) -> FittedModel:
+        treatment="auto", resolution=None, bounds=None, value_at=None) -> FittedModel:
     """Fit one mixture of ``k`` normal components.
 
     Parameters
@@ -91,7 +97,7 @@ def fit(values, k, *, counts=None, widths="separate", restarts=10, seed=0, cance
     restarts : int, default 10
     seed : int, default 0
     cancel : object with ``is_set()``, optional
-    treatment, resolution, bounds
+    treatment, resolution, bounds, value_at
         Exact values or intervals, as for :func:`scan`.
 
     Returns
@@ -102,7 +108,7 @@ def fit(values, k, *, counts=None, widths="separate", restarts=10, seed=0, cance
         The same model as ``scan(..., seed=seed).model(k, widths)``.
     """
     sample, _ = resolve_treatment(values, counts, treatment=treatment, resolution=resolution,
-                                  bounds=bounds)
+                                  bounds=bounds, value_at=value_at)
     variants = check_widths(widths)
     if len(variants) != 1:
         raise InputError("fit() takes one width variant: 'separate' or 'shared'; use scan() for both.")
@@ -115,7 +121,8 @@ def fit(values, k, *, counts=None, widths="separate", restarts=10, seed=0, cance
 
 
 def bootstrap(values, model, *, counts=None, replicates=200, method="resample", level=0.95, seed=0,
-              progress=None, cancel=None, workers=None, resolution=None, bounds=None) -> BootstrapResult:
+              progress=None, cancel=None, workers=None, resolution=None, bounds=None,
+              value_at=None) -> BootstrapResult:
     """Bootstrap intervals for the weights, means, standard deviations and cut points of a fit.
 
     Parameters
@@ -141,9 +148,9 @@ def bootstrap(values, model, *, counts=None, replicates=200, method="resample", 
         When set, raises :class:`~clusterdesk.errors.Cancelled`.
     workers : int, optional
         Worker threads; default the cores available, at most 2.
-    resolution, bounds : optional
+    resolution, bounds, value_at : optional
         For a model fitted to intervals (``model.likelihood == "intervals"``):
-        the same resolution or interval ends the scan was given.
+        the same resolution, interval ends and position the scan was given.
 
     Returns
     -------
@@ -153,7 +160,7 @@ def bootstrap(values, model, *, counts=None, replicates=200, method="resample", 
     """
     treatment = "intervals" if getattr(model, "likelihood", "exact") == "intervals" else "exact"
     sample, _ = resolve_treatment(values, counts, treatment=treatment, resolution=resolution,
-                                  bounds=bounds)
+                                  bounds=bounds, value_at=value_at)
     return bootstrap_model(sample, model, replicates=replicates, method=method, level=level,
                            seed=seed, workers=workers, progress=progress, cancel=cancel)
 

@@ -101,6 +101,7 @@ examples:
   clusterdesk fit survey.csv --intervals 200 --report survey.html --out results/
   clusterdesk fit gauge.xlsx --sheet inspection --column diameter_mm --json
   clusterdesk fit survey.csv --values-as exact      values at face value, not as intervals
+  clusterdesk fit tally.csv --counts n --value-at lower   each class named by its lower end
   clusterdesk fit survey.csv --values-as intervals --resolution 0.5
 
 exit codes: 0 success, 2 usage error, 3 unusable input (the message says why)
@@ -155,6 +156,10 @@ def build_parser() -> argparse.ArgumentParser:
     fit.add_argument("--resolution", type=float, metavar="STEP",
                      help="recording step or class width on the original scale "
                           "(default: detected from the values)")
+    fit.add_argument("--value-at", choices=("middle", "lower", "upper"), default="middle",
+                     help="where each value sits in its interval: the middle (rounded readings, "
+                          "default), or the lower or upper end (a tally whose class 12 holds "
+                          "12.0 to 12.99 is 'lower')")
     fit.add_argument("--low", type=float, help="exclude values below this (original scale)")
     fit.add_argument("--high", type=float, help="exclude values above this (original scale)")
     fit.add_argument("--choose", metavar="K[:WIDTHS]",
@@ -204,7 +209,7 @@ def run_fit(args, out) -> int:
                       sheet=_column_arg(args.sheet), low=args.low, high=args.high, scale=args.scale)
     settings = ScanSettings(kmin=args.kmin, kmax=args.kmax, widths=args.widths,
                             restarts=args.restarts, seed=args.seed, treatment=args.values_as,
-                            resolution=args.resolution)
+                            resolution=args.resolution, value_at=args.value_at)
     analysis = Analysis.from_file(args.file, data, settings)
     analysis.run_scan()
     if args.choose:

@@ -63,6 +63,8 @@ def settings_problem(settings: dict, default_kmax: int) -> str:
         return f"widths is {settings['widths']!r}"
     if settings.get("treatment", "auto") not in ("auto", "exact", "intervals"):
         return f"treatment is {settings['treatment']!r}"
+    if settings.get("value_at", "middle") not in ("middle", "lower", "upper"):
+        return f"value_at is {settings['value_at']!r}"
     step = settings.get("resolution")
     if step is not None and (isinstance(step, bool) or not isinstance(step, (int, float))
                              or not math.isfinite(step) or step <= 0):

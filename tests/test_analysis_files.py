@@ -86,6 +86,7 @@ def test_bytes_that_are_not_text_or_not_json(saved, tmp_path):
     (lambda d: d["settings"].update(restarts=True), "restarts is True"),
     (lambda d: d["settings"].update(widths="wide"), "widths is 'wide'"),
     (lambda d: d["settings"].update(treatment="rounded"), "treatment is 'rounded'"),
+    (lambda d: d["settings"].update(value_at="start"), "value_at is 'start'"),
     (lambda d: d["settings"].update(resolution=-0.1), "resolution is -0.1"),
     (lambda d: d["settings"].update(resolution="0.1"), "resolution is '0.1'"),
     (lambda d: d["data"].update(scale="log2"), "scale is 'log2'"),

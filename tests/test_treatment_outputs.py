@@ -32,10 +32,12 @@ def test_cli_states_the_automatic_treatment_everywhere(tmp_path, capsys):
     report = tmp_path / "lake.html"
     assert main(LAKE + ["--out", str(tmp_path / "out"), "--report", str(report)]) == 0
     out = capsys.readouterr().out
-    assert "Values treated as: Likelihood of intervals of width 1 (chosen automatically)" in out
+    assert ("Values treated as: Likelihood of intervals of width 1, each value in the middle of its "
+            "interval (chosen automatically)") in out
     assert {row["likelihood"] for row in _rows(tmp_path / "out" / "ranking.csv")} == {"intervals"}
     summary = json.loads((tmp_path / "out" / "summary.json").read_text(encoding="utf-8"))
     assert summary["treatment"]["used"] == "intervals" and summary["treatment"]["resolution"] == 1.0
+    assert summary["treatment"]["value_at"] == "middle" and summary["settings"]["value_at"] == "middle"
     assert summary["settings"]["treatment"] == "auto"
     assert "Likelihood of intervals of width 1" in report.read_text(encoding="utf-8")
 

@@ -138,7 +138,8 @@ def model_rng(seed: int, k: int, widths: str) -> np.random.Generator:
 
 def scan_models(values, *, counts=None, kmin=1, kmax=6, widths="separate", restarts=10, seed=0,
                 progress=None, cancel=None, settings: FitSettings | None = None,
-                treatment="auto", resolution=None, bounds=None, workers=None, prepared=None) -> ScanResult:
+                treatment="auto", resolution=None, bounds=None, workers=None, prepared=None,
+                value_at=None) -> ScanResult:
     """Fit every component count from kmin to kmax for each width variant and rank them.
 
     Parameters
@@ -159,6 +160,7 @@ def scan_models(values, *, counts=None, kmin=1, kmax=6, widths="separate", resta
     treatment : {"auto", "exact", "intervals"}, default "auto"
     resolution : float, optional
     bounds : tuple (lower, upper) of array_like, optional
+    value_at : {"middle", "lower", "upper"}, optional
         Exact values or intervals: see :func:`.treatment.resolve_treatment`.
     workers : int, optional
         Worker processes for samples large enough to be fitted on a histogram
@@ -189,7 +191,7 @@ def scan_models(values, *, counts=None, kmin=1, kmax=6, widths="separate", resta
         sample, used = prepared()
     else:
         sample, used = resolve_treatment(values, counts, treatment=treatment, resolution=resolution,
-                                         bounds=bounds)
+                                         bounds=bounds, value_at=value_at)
     check_component_range(kmin, kmax, sample)
     jobs = [(w, k) for w in variants for k in range(kmin, kmax + 1)]
     if workers > 1 and len(jobs) > 1 and not sample.is_intervals and sample.n_distinct > settings.bin_above:

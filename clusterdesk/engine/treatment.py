@@ -2,7 +2,11 @@
 
 A value recorded to a resolution ``h`` is only known to lie in
 ``[x - h/2, x + h/2)``; a tally class of width ``h`` holds values anywhere in
-it; a reading below a detection limit lies below it.  The *treatment* says
+it; a reading below a detection limit lies below it.  Where the recorded
+value sits in its interval is ``value_at``: ``"middle"`` for rounded readings
+(the usual), ``"lower"`` for a class named by its lower end (a length class
+"12 cm" holding 12.0 to 12.99, interval ``[x, x + h)``), ``"upper"`` for one
+named by its upper end (``[x - h, x)``).  The *treatment* says
 whether the fit uses the likelihood of exact values (densities) or of
 intervals (:mod:`.grouped`).
 
@@ -31,9 +35,14 @@ from .fitting import _robust_spread
 from .grouped import prepare_intervals
 from .validation import Sample, prepare_sample, weighted_mean_sd
 
-__all__ = ["Treatment", "TREATMENTS", "COARSE_FRACTION", "resolve_treatment"]
+__all__ = ["Treatment", "TREATMENTS", "VALUE_POSITIONS", "COARSE_FRACTION", "resolve_treatment",
+           "check_value_at", "interval_offsets"]
 
 TREATMENTS = ("auto", "exact", "intervals")
+#: Where a recorded value sits in its interval, and how the outputs say it.
+VALUE_POSITIONS = {"middle": "each value in the middle of its interval",
+                   "lower": "each value the lower end of its interval",
+                   "upper": "each value the upper end of its interval"}
 #: A grid step at least this fraction of the robust spread is "coarse" (our choice, see above).
 COARSE_FRACTION = 0.02
 
@@ -53,6 +62,10 @@ class Treatment:
         Observations with an open-ended interval (e.g. below a detection limit).
     reason : str
         One sentence in plain words.
+    value_at : {"middle", "lower", "upper"} or None
+        Where each recorded value sits in its interval (see the module
+        notes); None for exact values, or intervals given end by end
+        without saying.
     """
 
     requested: str
@@ -60,6 +73,7 @@ class Treatment:
     resolution: float | None
     censored: int
     reason: str
+    value_at: str | None = None
 
     def describe(self) -> str:
         """A line for tables, reports and the window."""
@@ -69,13 +83,15 @@ class Treatment:
             what = f"Likelihood of intervals of width {self.resolution:g}"
         else:
             what = "Likelihood of intervals"
+        if self.used == "intervals" and self.value_at is not None:
+            what += f", {VALUE_POSITIONS[self.value_at]}"
         how = "chosen automatically" if self.requested == "auto" else "as requested"
         return f"{what} ({how}): {self.reason}"
 
     def as_dict(self) -> dict:
         """Plain JSON types, for summaries and saved analyses."""
         return {"requested": self.requested, "used": self.used, "resolution": self.resolution,
-                "censored": self.censored, "reason": self.reason}
+                "value_at": self.value_at, "censored": self.censored, "reason": self.reason}
 
 
 def check_treatment(treatment) -> str:
@@ -87,8 +103,23 @@ def check_treatment(treatment) -> str:
     return treatment
 
 
+def check_value_at(value_at) -> str:
+    """``"middle"``, ``"lower"`` or ``"upper"``; anything else is an :class:`InputError`."""
+    if value_at not in VALUE_POSITIONS:
+        raise InputError(f"Unknown position {value_at!r} of a value in its interval; use 'middle' "
+                         "(rounded readings), 'lower' (a class named by its lower end, e.g. 12 for "
+                         "12.0 to 12.99) or 'upper' (named by its upper end).")
+    return value_at
+
+
+def interval_offsets(value_at: str, step: float) -> tuple[float, float]:
+    """The interval of a value ``x`` recorded to ``step`` is ``[x + lo, x + hi)``; returns ``(lo, hi)``."""
+    return {"middle": (-0.5 * step, 0.5 * step), "lower": (0.0, step),
+            "upper": (-step, 0.0)}[check_value_at(value_at)]
+
+
 def resolve_treatment(values, counts=None, *, treatment="auto", resolution=None,
-                      bounds=None) -> tuple[Sample, Treatment]:
+                      bounds=None, value_at=None) -> tuple[Sample, Treatment]:
     """Decide the treatment and prepare the sample for it.
 
     Parameters
@@ -103,6 +134,10 @@ def resolve_treatment(values, counts=None, *, treatment="auto", resolution=None,
         Each value's interval given end by end (e.g. after a log transform, or
         ``-inf`` for a reading below a detection limit); takes precedence over
         ``resolution`` for the intervals.  Under ``"exact"`` they are not used.
+    value_at : {"middle", "lower", "upper"}, optional
+        Where each value sits in its interval of width ``resolution``
+        (default "middle"); with ``bounds``, only said in the treatment's
+        description (the bounds already hold it).
 
     Returns
     -------
@@ -112,6 +147,9 @@ def resolve_treatment(values, counts=None, *, treatment="auto", resolution=None,
     """
     check_treatment(treatment)
     step = _check_resolution(resolution)
+    if value_at is not None:
+        check_value_at(value_at)
+    position = value_at if value_at is not None or bounds is not None else "middle"
     sample = prepare_sample(values, counts)  # validated and sorted once
     if treatment == "exact":
         return _exact_sample(sample), Treatment(
@@ -135,9 +173,10 @@ def resolve_treatment(values, counts=None, *, treatment="auto", resolution=None,
         grouped = prepare_intervals(values, counts, bounds[0], bounds[1])
     else:
         v, n = _tied(sample)
-        grouped = prepare_intervals(v, n, v - 0.5 * step, v + 0.5 * step)
+        lo, hi = interval_offsets(position, step)
+        grouped = prepare_intervals(v, n, v + lo, v + hi)
     return grouped, Treatment(treatment, "intervals", None if bounds is not None else step,
-                              censored, reason)
+                              censored, reason, position)
 
 
 def _check_resolution(resolution):

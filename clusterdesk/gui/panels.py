@@ -27,6 +27,8 @@ _NO_COUNTS = "(none: each row counts once)"
 #: Treatments of the values (exact or intervals) and the words shown for them.
 TREATMENT_CHOICES = (("auto", "decide from the resolution"), ("exact", "exact values"),
                      ("intervals", "intervals of the resolution"))
+VALUE_AT_CHOICES = (("middle", "middle of its interval"), ("lower", "lower end (class named by its start)"),
+                    ("upper", "upper end (class named by its end)"))
 
 
 def choice_box(choices, tip: str) -> QComboBox:
@@ -98,6 +100,10 @@ class DataPanel(QGroupBox):
         self.resolution = QLineEdit()
         self.resolution.setToolTip("The recording step (or class width) on the original scale; leave "
                                    "empty to use the one detected in the values.")
+        self.value_at = choice_box(VALUE_AT_CHOICES, "Where each recorded value sits in its interval: the "
+                                   "middle for rounded readings; the lower end for a tally whose class 12 "
+                                   "holds 12.0 to 12.99 (recorded to the unit below); the upper end for one "
+                                   "named by where each class ends.")
         self.values_as.currentIndexChanged.connect(self._show_cleaning)
         self.resolution.textChanged.connect(self._show_cleaning)
         self.cleaning = QLabel("")
@@ -118,6 +124,7 @@ class DataPanel(QGroupBox):
         form.addRow("Range", range_row)
         form.addRow("Values as", self.values_as)
         form.addRow("Resolution", self.resolution)
+        form.addRow("Value at", self.value_at)
         layout = QVBoxLayout(self)
         layout.addWidget(self.source)
         layout.addWidget(self.columns)
@@ -162,7 +169,7 @@ class DataPanel(QGroupBox):
         self._shown = self.current_choice() if measurements is not None else None
 
     def treatment_settings(self) -> dict:
-        """``treatment`` and ``resolution`` for :class:`~clusterdesk.analysis.ScanSettings`.
+        """``treatment``, ``resolution`` and ``value_at`` for :class:`~clusterdesk.analysis.ScanSettings`.
 
         An unreadable resolution is taken as empty (the detected one is used).
         """
@@ -171,12 +178,14 @@ class DataPanel(QGroupBox):
         except ValueError:
             step = None
         return {"treatment": self.values_as.currentData(),
-                "resolution": step if step is not None and step > 0 else None}
+                "resolution": step if step is not None and step > 0 else None,
+                "value_at": self.value_at.currentData()}
 
     def set_treatment(self, settings) -> None:
         """Show the treatment and resolution of some settings (e.g. a reopened analysis)."""
         self.values_as.setCurrentIndex(max(self.values_as.findData(settings.treatment), 0))
         self.resolution.setText("" if settings.resolution is None else f"{settings.resolution:g}")
+        self.value_at.setCurrentIndex(max(self.value_at.findData(settings.value_at), 0))
         self._show_cleaning()
 
     def _show_cleaning(self, *_) -> None:
@@ -308,10 +317,10 @@ def _format_words(m) -> str:
     return "; ".join(words)
 
 
-def cleaning_words(m, treatment: str = "auto", resolution: float | None = None) -> str:
+def cleaning_words(m, treatment: str = "auto", resolution: float | None = None, value_at: str = "middle") -> str:
     """The cleaning summary as shown under the column chooser (rich text).
 
-    ``treatment`` and ``resolution`` are the settings shown beside it: rows at
+    ``treatment``, ``resolution`` and ``value_at`` are the settings shown beside it: rows at
     a detection or reporting limit enter the fit as censored readings unless
     the values are taken as exact or no resolution is known
     (:meth:`~clusterdesk.analysis.Analysis.likelihood_input`).

@@ -15,6 +15,7 @@ from PySide6.QtCore import Qt, Signal
 from PySide6.QtWidgets import (QComboBox, QHBoxLayout, QLabel, QPushButton, QSpinBox,
                                QVBoxLayout, QWidget)
 
+from ..engine.treatment import interval_offsets
 from ..io.cleaning import to_original_scale
 from .histogram import BIN_RULES, bin_edges, weighted_histogram
 from .models import model_words
@@ -182,9 +183,13 @@ class DistributionView(PlotView):
         m = analysis.measurements
         values, counts = analysis.fit_input()
         label = axis_label(m)
-        key = (id(m), self.rule.currentText(), self.bins.value())
+        value_at = analysis.settings.value_at
+        key = (id(m), self.rule.currentText(), self.bins.value(), value_at)
         if key != self._bars_key:
             step = m.resolution if m.scale == "linear" else None
+            if step:  # a class named by its lower (upper) end is drawn where it lies, not centred on its name
+                lo, hi = interval_offsets(value_at, step)
+                values = values + 0.5 * (lo + hi)
             self.edges = bin_edges(values, counts, rule=self.rule.currentText(), bins=self.bins.value(),
                                    grid_step=step)
             self._base_heights = weighted_histogram(values, counts, self.edges)
@@ -200,15 +205,18 @@ class DistributionView(PlotView):
         self._bars.setData(self.edges, self.heights)
         self._bars.show()
         self.curves = {"histogram": self._bars}
+        # A tally's rows are classes: say how many observations they hold, not how many rows.
+        observations = (f"{kept:,.0f} kept observations in {m.n:,} classes" if counts is not None
+                        else f"{m.n:,} kept values")
         if analysis.scan is None:
-            self._show_model(None, m.n)
-            self.heading.setText(f"{label}: {m.n:,} kept values. Fit models to see the mixture.")
+            self._show_model(None, int(round(kept)))
+            self.heading.setText(f"{label}: {observations}. Fit models to see the mixture.")
             return
-        self._show_model(analysis.chosen, m.n)
+        self._show_model(analysis.chosen, int(round(kept)))
         which = "best by BIC" if analysis.choice is None else "your choice"
         model = analysis.chosen
         censored = f" and {fitted_n - kept:,.0f} readings beyond a limit (in the fit, not drawn)" if share < 1 else ""
-        self.heading.setText(f"{label}: {values.size:,} kept values{censored}; "
+        self.heading.setText(f"{label}: {observations}{censored}; "
                              f"{model_words(model.k, model.widths)} ({which}).")
 
     def _show_model(self, model, n) -> None:

@@ -30,12 +30,16 @@ class Sample:
         One sentence; every sample says it is synthetic.
     data : DataChoice
         Column, count column and scale that suit the scenario.
+    value_at : {"middle", "lower", "upper"}, default "middle"
+        Where each recorded value sits in its interval (a tally naming its
+        classes by their lower end is "lower").
     """
 
     path: Path
     title: str
     description: str
     data: DataChoice
+    value_at: str = "middle"
 
 
 #: What each known sample holds (all invented; see sample_data/README.md).
@@ -46,8 +50,9 @@ _KNOWN = {
         DataChoice(column="length_mm")),
     "length_tally.csv": (
         "Length tally (value and count)",
-        "Synthetic: an invented length-frequency table of 2500 fish in 1 cm classes.",
-        DataChoice(column="length_cm", counts="count")),
+        "Synthetic: an invented length-frequency table of 2500 fish in 1 cm classes, each named by its "
+        "lower end (Value at: lower end).",
+        DataChoice(column="length_cm", counts="count"), "lower"),
     "powder_diameters.csv": (
         "Particle diameters of a milled powder",
         "Synthetic: 1200 invented diameters (µm) with a fine and a coarse mode; fitted on ln.",

@@ -25,8 +25,10 @@ class WelcomePage(QWidget):
     screenRequested()
         The user wants the screening page (many files and columns).
     pathChosen(str, object)
-        A recent file or a sample (with its :class:`~clusterdesk.analysis.DataChoice`,
-        or None for a recent file) was picked.
+        A recent file was picked (the object is None: the reader's defaults).
+    sampleChosen(object)
+        A bundled :class:`~clusterdesk.gui.samples.Sample` was picked (its
+        data choice and where its values sit in their intervals come with it).
 
     Attributes
     ----------
@@ -38,6 +40,7 @@ class WelcomePage(QWidget):
     pasteRequested = Signal()
     screenRequested = Signal()
     pathChosen = Signal(str, object)
+    sampleChosen = Signal(object)
 
     def __init__(self, parent=None):
         super().__init__(parent)
@@ -69,7 +72,7 @@ class WelcomePage(QWidget):
         for sample in bundled_samples():
             button = QCommandLinkButton(sample.title, sample.description)
             button.setToolTip(str(sample.path))
-            button.clicked.connect(lambda _c=False, s=sample: self.pathChosen.emit(str(s.path), s.data))
+            button.clicked.connect(lambda _c=False, s=sample: self.sampleChosen.emit(s))
             sample_layout.addWidget(button)
             self.sample_buttons.append((button, sample))
         if not self.sample_buttons:

@@ -93,6 +93,12 @@ class Workflow:
         if path:
             self.open_path(path)
 
+    def open_bundled_sample(self, sample) -> None:
+        """Open one of the synthetic samples with the reading and interval settings that suit it."""
+        panel = self.data_panel
+        panel.value_at.setCurrentIndex(max(panel.value_at.findData(sample.value_at), 0))
+        self.open_path(str(sample.path), sample.data)
+
     def open_path(self, path, data: DataChoice | None = None) -> None:
         """Open a data file (on the worker) or a saved analysis."""
         if self.runner.busy:

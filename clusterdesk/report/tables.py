@@ -163,7 +163,7 @@ def summary_dict(analysis, *, classification=None) -> dict:
         "settings": {"kmin": analysis.settings.kmin, "kmax": analysis.settings.kmax,
                      "widths": analysis.settings.widths, "restarts": analysis.settings.restarts,
                      "seed": analysis.settings.seed, "treatment": analysis.settings.treatment,
-                     "resolution": analysis.settings.resolution},
+                     "resolution": analysis.settings.resolution, "value_at": analysis.settings.value_at},
         "treatment": treatment_dict(scan),
         "best": {"components": scan.best.k, "widths": scan.best.widths,
                  "evidence_over_runner_up": scan.evidence},

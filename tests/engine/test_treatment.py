@@ -74,3 +74,33 @@ def test_scan_states_the_treatment_in_result_and_rows():
     exact = clusterdesk.scan(x, kmin=1, kmax=2, seed=0, treatment="exact")
     assert {row.likelihood for row in exact.ranking} == {"exact"}
     assert exact.treatment.as_dict()["used"] == "exact"
+
+
+def test_a_class_named_by_its_lower_end_is_the_interval_above_it():
+    # A length-frequency tally recorded to the whole unit below (class 12 holds
+    # 12.0 to 12.99), from a known mixture (synthetic, seeded). Taken as the
+    # lower end of its class, the interval fit recovers the generating means
+    # within sampling error (standard error of a component mean s / sqrt(n w),
+    # common practice); taken as the middle, every mean comes out half a class
+    # low: flooring moves each value down by h/2 on average (common practice).
+    rng = np.random.default_rng(52)
+    weights, means, sds = np.array([0.55, 0.45]), np.array([12.3, 21.5]), np.array([1.6, 2.4])
+    n = 20_000
+    labels = rng.choice(2, n, p=weights)
+    classes, counts = np.unique(np.floor(rng.normal(means[labels], sds[labels])), return_counts=True)
+    se = sds / np.sqrt(n * weights)
+    lower = clusterdesk.fit(classes, 2, counts=counts, value_at="lower", seed=0)
+    middle = clusterdesk.fit(classes, 2, counts=counts, value_at="middle", seed=0)
+    assert np.all(np.abs(lower.mixture.means - means) < 4 * se)
+    assert np.all(np.abs(middle.mixture.means - (means - 0.5)) < 4 * se)
+    # The interval likelihood is unchanged by moving every interval and the means alike.
+    np.testing.assert_allclose(lower.mixture.means - middle.mixture.means, 0.5, atol=1e-5)
+    np.testing.assert_allclose(lower.mixture.sds, middle.mixture.sds, rtol=1e-5)
+    sample, treatment = resolve_treatment(classes, counts, value_at="lower")
+    np.testing.assert_array_equal(sample.lower, classes)
+    np.testing.assert_array_equal(sample.upper, classes + 1)
+    assert treatment.value_at == "lower" and "lower end of its interval" in treatment.describe()
+    upper, _ = resolve_treatment(classes, counts, value_at="upper")
+    np.testing.assert_array_equal(upper.upper, classes)
+    with pytest.raises(InputError, match="'middle'"):
+        resolve_treatment(classes, counts, value_at="start")

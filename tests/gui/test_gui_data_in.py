@@ -35,6 +35,13 @@ def test_first_screen_offers_the_synthetic_samples_and_opens_one(qtbot, window):
     (button, path), = window.welcome.recent_buttons
     assert button.text() == "lake_net_lengths.csv" and path == str((SAMPLES / "lake_net_lengths.csv").resolve())
     assert [a.text() for a in window.recent_menu.actions()] == ["lake_net_lengths.csv"]
+    # The tally names its classes by their lower end (sample_data/README.md): its button says so.
+    window.stack.setCurrentIndex(0)
+    tally = next(button for button, sample in buttons if sample.path.name == "length_tally.csv")
+    with qtbot.waitSignal(window.runner.finished, timeout=20_000):
+        tally.click()
+    assert window.data_panel.value_at.currentData() == "lower"
+    assert window.analysis.measurements.counts is not None
 
 
 def test_drag_and_drop_a_file_and_text(qtbot, window):

@@ -42,3 +42,29 @@ def test_values_as_setting_drives_the_scan_and_is_shown(qtbot, window, tmp_path)
     assert reopened.scan.treatment.resolution == 2.0
     run(qtbot, window, lambda: window.open_analysis(str(saved)))
     assert panel.values_as.currentData() == "intervals" and panel.resolution.text() == "2"
+
+
+def test_value_at_places_tally_classes_in_the_fit_and_in_the_histogram(qtbot, window, tmp_path):
+    # The bundled tally names each 1 cm class by its lower end (sample_data/README.md).
+    # Moving every interval by half a class moves the fitted means by exactly that
+    # (the interval likelihood is unchanged by a common shift) and the bars with them.
+    import numpy as np
+
+    open_sample(qtbot, window, "length_tally.csv", DataChoice(column="length_cm", counts="count"))
+    panel = window.data_panel
+    fit(qtbot, window, kmin=3, kmax=3, widths="separate")
+    middle = window.analysis.chosen.mixture
+    first_edge = window.distribution.edges[0]
+    assert "middle of its interval" in window.ranking.summary.text()
+    panel.value_at.setCurrentIndex(panel.value_at.findData("lower"))
+    fit(qtbot, window, kmin=3, kmax=3, widths="separate")
+    lower = window.analysis.chosen.mixture
+    assert window.analysis.settings.value_at == "lower"
+    assert "lower end of its interval" in window.ranking.summary.text()
+    np.testing.assert_allclose(lower.means - middle.means, 0.5, atol=1e-4)
+    values, _ = window.analysis.fit_input()
+    assert window.distribution.edges[0] == values.min() == first_edge + 0.5  # class 7 drawn over [7, 8)
+    assert "2,500 kept observations in 32 classes" in window.distribution.heading.text()
+    saved = window.analysis.save(tmp_path / "tally")
+    run(qtbot, window, lambda: window.open_analysis(str(saved)))
+    assert panel.value_at.currentData() == "lower" and window.analysis.settings.value_at == "lower"

@@ -407,11 +407,19 @@ class Analysis:
         Returns
         -------
         FitCheck
-            See :func:`clusterdesk.engine.fitcheck.goodness_of_fit`.
+            See :func:`clusterdesk.engine.fitcheck.goodness_of_fit`; readings the
+            fit used as censored count in the data's distribution.
         """
         values, counts = self.fit_input()
         model = self.chosen if model is None else model
-        return goodness_of_fit(model.mixture, values, counts)
+        given = self._posterior_intervals(model)
+        censored, step = None, None
+        if given is not None:  # fitted to intervals: the readings beyond a limit were in the fit
+            limits, sides, limit_counts = self._censored_rows()
+            censored = (limits, sides, limit_counts) if limits.size else None
+            step = given["resolution"]
+        return goodness_of_fit(model.mixture, values, counts, censored=censored, step=step,
+                               value_at=self.settings.value_at)
 
     def classification(self, model: FittedModel | None = None, *, posterior: np.ndarray | None = None,
                        groups=None):

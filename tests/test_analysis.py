@@ -207,3 +207,27 @@ def test_fit_notes_explain_a_missing_cut_point():
     analysis.run_scan()
     assert np.isnan(analysis.chosen.mixture.cut_points()[0])
     assert analysis.chosen.mixture.cut_point_notes()[0] in analysis.fit_notes
+
+
+def test_fit_check_of_the_serosurvey_counts_its_censored_readings():
+    # sample_data/serosurvey_antibody.csv (synthetic): 75 of 800 readings are
+    # "<0.5". Reference: the empirical distribution over all 800 readings, the
+    # 75 placed below log10(0.5), against the chosen mixture's distribution
+    # function written with scipy.stats.norm, at every kept value.
+    from scipy import stats
+
+    path = Path(__file__).resolve().parents[1] / "sample_data" / "serosurvey_antibody.csv"
+    analysis = Analysis.from_file(path, DataChoice(column="antibody_au", scale="log10"),
+                                  ScanSettings(kmin=2, kmax=2, widths="separate", seed=0))
+    analysis.run_scan()
+    check = analysis.fit_check()
+    mix = analysis.chosen.mixture
+    kept, _ = analysis.fit_input()
+    u, c = np.unique(kept, return_counts=True)
+    after = (75 + np.cumsum(c)) / 800
+    before = after - c / 800
+    cdf = sum(w * stats.norm.cdf(u, m, s) for w, m, s in zip(mix.weights, mix.means, mix.sds))
+    expected = max(np.abs(after - cdf).max(), np.abs(before - cdf).max())
+    assert check.censored == 75 and check.n == 800
+    assert check.ks_distance == pytest.approx(expected, rel=1e-10)
+    assert check.verdict.startswith("No clear sign of misfit")

@@ -13,6 +13,14 @@ p-value that allows for the fitting (:func:`fit_check_bootstrap`).
 Values recorded on a coarse grid have ties that a continuous distribution
 cannot have; there the distance is measured against the mixture rounded to
 the same grid (cell probabilities), which is what rounded values can follow.
+
+Readings the fit used as censored (below a detection limit, above a
+reporting limit) belong to the data's distribution too: a reading below a
+limit ``L`` lies below every value at or above ``L``. The empirical
+distribution counts them there, over all ``n`` readings, and the distance is
+taken only at values where every censored reading is known to lie on one
+side; leaving them out would compare the kept values (a share of the sample)
+with a mixture fitted to the whole, and show a misfit that is not there.
 """
 
 from __future__ import annotations
@@ -29,6 +37,7 @@ from scipy.special import ndtr
 from ..errors import InputError
 from .fitting import FittedModel
 from .mixture import Mixture
+from .treatment import interval_offsets
 from .parallel import check_seed, check_workers, index_batches, run_batches
 from .replicates import draw_replicates, plan_replicates, refit_replicates
 from .resolution import detect_grid_step
@@ -52,7 +61,7 @@ class FitCheck:
     ks_distance : float
         ``sup |F_n - F|`` against the continuous mixture.
     ks_location : float
-        A value where the largest gap occurs.
+        A value where the largest gap of the verdict (``verdict_distance``) occurs.
     ks_p_value : float
         Kolmogorov p-value of the distance used for the verdict (optimistic
         for a fitted model, see the module notes).
@@ -63,13 +72,15 @@ class FitCheck:
         with ties on a grid); ``verdict_distance`` is then that distance.
     verdict_distance : float
     n : float
-        Number of values (sum of counts).
+        Number of readings (sum of counts), censored ones included.
     bootstrap_p_value : float
         Share of refitted simulated samples with a distance at least as large
         (``(1 + #) / (1 + B)``); NaN when not computed.
     bootstrap_replicates : int
     verdict : str
         Plain words for a report.
+    censored : float
+        Readings beyond a limit counted in the data's distribution (0 when none).
     """
 
     plotting_positions: np.ndarray
@@ -85,6 +96,7 @@ class FitCheck:
     bootstrap_p_value: float = math.nan
     bootstrap_replicates: int = 0
     verdict: str = ""
+    censored: float = 0.0
 
 
 def ks_distance(cum_before, cum_after, cdf_lower, cdf_upper):
@@ -109,17 +121,44 @@ def ks_distance(cum_before, cum_after, cdf_lower, cdf_upper):
     return gaps.max(axis=-1), gaps.argmax(axis=-1)
 
 
-def _empirical(sample: Sample):
-    """Distinct values, their counts and the empirical distribution below and at each."""
+def _empirical(sample: Sample, censored=None):
+    """Distinct values, their counts, the empirical distribution below and at each, and where it is known.
+
+    Returns
+    -------
+    x, c : ndarray, shape (m,)
+    before, after : ndarray, shape (m,)
+        ``F_n(x-)`` and ``F_n(x)`` over every reading, censored ones included.
+    known : ndarray of bool, shape (m,)
+        No censored reading could lie on either side of ``x``.
+    n : float
+        All readings.
+    """
     starts = np.flatnonzero(np.r_[True, np.diff(sample.values) > 0])
     x = sample.values[starts]
     c = np.add.reduceat(sample.counts, starts)
-    after = np.cumsum(c) / sample.n
-    before = np.r_[0.0, after[:-1]]
-    return x, c, before, after
+    after = np.cumsum(c)
+    below_x = np.zeros_like(after)
+    known = np.ones(x.size, dtype=bool)
+    n = sample.n
+    if censored is not None:
+        limits, sides, counts = (np.asarray(a, dtype=np.float64) for a in censored)
+        n += float(counts.sum())
+        below, above = sides < 0, sides > 0
+        order = np.argsort(limits[below])
+        cum = np.r_[0.0, np.cumsum(counts[below][order])]
+        below_x = cum[np.searchsorted(limits[below][order], x, side="right")]  # readings < L <= x
+        if below.any():
+            known &= x >= limits[below].max()
+        if above.any():
+            known &= x <= limits[above].min()
+    after = (after + below_x) / n
+    before = after - c / n
+    return x, c, before, after, known, n
 
 
-def goodness_of_fit(mixture: Mixture, values, counts=None) -> FitCheck:
+def goodness_of_fit(mixture: Mixture, values, counts=None, *, censored=None, step=None,
+                    value_at="middle") -> FitCheck:
     """Q-Q points, Kolmogorov-Smirnov distance and a verdict for a mixture on values.
 
     Parameters
@@ -127,30 +166,47 @@ def goodness_of_fit(mixture: Mixture, values, counts=None) -> FitCheck:
     mixture : Mixture
     values : array_like, shape (n,)
     counts : array_like, shape (n,), optional
+    censored : tuple (limits, sides, counts) of array_like, optional
+        Readings the fit used as censored: side -1 below its limit, +1 above
+        it, with their counts (see the module notes).
+    step : float, optional
+        Recording step of the values; default: detected from them.
+    value_at : {"middle", "lower", "upper"}, default "middle"
+        Where each value sits in its recording cell, for the comparison with
+        the rounded mixture.
 
     Returns
     -------
     FitCheck
+        With NaN distances and no verdict of misfit when no value has every
+        censored reading on one known side.
     """
     if not isinstance(mixture, Mixture):
         raise InputError(f"goodness_of_fit() needs a Mixture; got {type(mixture).__name__}.")
     sample = prepare_sample(values, counts)
-    x, c, before, after = _empirical(sample)
-    positions = (after - 0.5 * c / sample.n)
-    cdf = mixture.cdf(x)
-    distance, where = ks_distance(before, after, cdf, cdf)
-    step = detect_grid_step(x)
+    x, c, before, after, known, n = _empirical(sample, censored)
+    positions = after - 0.5 * c / n
+    step = detect_grid_step(x) if step is None else float(step)
     rounded = step is not None and sample.n > x.size
+    cdf = mixture.cdf(x)
+    censored_n = n - sample.n
+    base = dict(plotting_positions=_frozen(positions), theoretical=_frozen(mixture.quantile(positions)),
+                observed=_frozen(x), grid_step=step, rounded=rounded, n=n, censored=censored_n)
+    if not known.any():
+        check = FitCheck(ks_distance=math.nan, ks_location=math.nan, ks_p_value=math.nan,
+                         verdict_distance=math.nan, **base)
+        return dataclasses.replace(check, verdict=verdict(check))
+    k = known
+    distance, where = ks_distance(before[k], after[k], cdf[k], cdf[k])
     used = distance
     if rounded:
-        used = ks_distance(before, after, mixture.cdf(x - 0.5 * step), mixture.cdf(x + 0.5 * step))[0]
+        lo, hi = interval_offsets(value_at, step)
+        used, where = ks_distance(before[k], after[k], mixture.cdf(x[k] + lo), mixture.cdf(x[k] + hi))
     from scipy.stats import kstwo  # imported here: scipy.stats takes half a second to import
 
-    p_value = float(kstwo.sf(float(used), int(round(sample.n))))
-    check = FitCheck(plotting_positions=_frozen(positions), theoretical=_frozen(mixture.quantile(positions)),
-                     observed=_frozen(x), ks_distance=float(distance), ks_location=float(x[where]),
-                     ks_p_value=p_value, grid_step=step, rounded=rounded,
-                     verdict_distance=float(used), n=sample.n)
+    p_value = float(kstwo.sf(float(used), int(round(n))))
+    check = FitCheck(ks_distance=float(distance), ks_location=float(x[k][where]), ks_p_value=p_value,
+                     verdict_distance=float(used), **base)
     return dataclasses.replace(check, verdict=verdict(check))
 
 
@@ -168,13 +224,17 @@ def verdict(check: FitCheck) -> str:
     of misfit", at most 0.05 "some sign of misfit", otherwise "no clear sign
     of misfit" (conventional 1% and 5% levels, common practice).
     """
+    if math.isnan(check.verdict_distance):
+        return (f"No fit check: the {check.censored:,.0f} readings beyond a limit could lie on either side "
+                "of every kept value, so the data's distribution is not known at any of them.")
     booted = check.bootstrap_replicates > 0
     p = check.bootstrap_p_value if booted else check.ks_p_value
     against = "the fitted mixture rounded to the recording step" if check.rounded else "the fitted mixture"
     gap = (f"the largest gap between the data's distribution and {against} is "
            f"{check.verdict_distance:.3f}, near {check.ks_location:.4g}")
-    source = (f"bootstrap p = {p:.3g} from {check.bootstrap_replicates} refitted simulated samples"
-              if booted else f"Kolmogorov-Smirnov p = {p:.3g}")
+    shown = "p > 0.99" if p > 0.99 else f"p = {p:.3g}"
+    source = (f"bootstrap {shown} from {check.bootstrap_replicates} refitted simulated samples"
+              if booted else f"Kolmogorov-Smirnov {shown}")
     if p <= 0.01:
         words = f"Clear sign of misfit: {gap} ({source})."
     elif p <= 0.05:
@@ -184,6 +244,9 @@ def verdict(check: FitCheck) -> str:
     if p <= 0.05:
         words += (" Look at the Q-Q plot there; another number of components or the other "
                   "width variant may describe the data better.")
+    if check.censored:
+        words += (f" The {check.censored:,.0f} readings beyond a limit count in the data's distribution "
+                  "where they are known to lie.")
     if not booted:
         words += (" The p-value is optimistic because the mixture was fitted to these same values: "
                   "weak reassurance when large, and a small one understates the misfit.")

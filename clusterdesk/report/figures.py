@@ -51,14 +51,21 @@ def freedman_diaconis_bins(values, counts=None, *, max_bins=200) -> int:
     return int(np.clip(np.ceil(span / width), 5, max_bins))
 
 
-def histogram_png(values, counts, mixture, *, xlabel: str, bins=None) -> bytes:
-    """Histogram (density scale) with the mixture density, weighted components and cut points."""
+def histogram_png(values, counts, mixture, *, xlabel: str, bins=None, share: float = 1.0) -> bytes:
+    """Histogram (density scale) with the mixture density, weighted components and cut points.
+
+    ``share`` is the kept values' share of the readings the mixture was
+    fitted to (below 1 when readings beyond a detection or reporting limit
+    were in the fit as censored): the bars then hold that share of the area,
+    as the mixture's density of the whole sample does over them.
+    """
     fig = _figure()
     ax = fig.add_subplot()
     x = np.asarray(values, dtype=float)
     bins = bins or freedman_diaconis_bins(x, counts)
-    ax.hist(x, bins=bins, weights=counts, density=True, color="#D9D9D9", edgecolor="#A6A6A6",
-            linewidth=0.5, label="measurements")
+    heights, edges = np.histogram(x, bins=bins, weights=counts, density=True)
+    ax.stairs(heights * share, edges, fill=True, color="#D9D9D9", label="measurements")
+    ax.stairs(heights * share, edges, color="#A6A6A6", linewidth=0.5)
     lo, hi = x.min(), x.max()
     pad = 0.05 * (hi - lo)
     grid = np.linspace(lo - pad, hi + pad, 800)
@@ -67,9 +74,8 @@ def histogram_png(values, counts, mixture, *, xlabel: str, bins=None) -> bytes:
         ax.plot(grid, parts[:, j], color=PALETTE[j % len(PALETTE)], linewidth=1.4,
                 label=f"component {j + 1}")
     ax.plot(grid, mixture.pdf(grid), color="black", linewidth=1.8, label="mixture")
-    for c in mixture.cut_points():
-        if np.isfinite(c):
-            ax.axvline(c, color="#555555", linestyle="--", linewidth=1.0)
+    for j, c in enumerate(c for c in mixture.cut_points() if np.isfinite(c)):
+        ax.axvline(c, color="#555555", linestyle="--", linewidth=1.0, label="cut point" if j == 0 else None)
     ax.set_xlabel(xlabel)
     ax.set_ylabel("density")
     ax.legend(frameon=False, fontsize=8)

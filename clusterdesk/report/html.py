@@ -149,16 +149,23 @@ def _figures_section(analysis) -> str:
     chosen = analysis.chosen
     label = _axis_label(analysis)
     parts = ["<h2>Figures</h2>",
-             _img(figures.histogram_png(values, counts, chosen.mixture, xlabel=label),
+             _img(figures.histogram_png(values, counts, chosen.mixture, xlabel=label,
+                                        share=_kept_share(analysis)),
                   "Histogram of the kept values with the fitted mixture, its components and cut points"),
              _img(figures.criteria_png(analysis.scan), "BIC and ICL by number of components")]
     check = analysis.fit_check()
     parts.append("<h2>Fit check</h2>")
     parts.append(_img(figures.qq_png(check.theoretical, check.observed, xlabel=label),
                       "Quantile-quantile plot of the data against the fitted mixture"))
-    parts.append(f"<p>Kolmogorov-Smirnov distance {_fmt(check.ks_distance, 4)}. "
-                 f"{html.escape(check.verdict)}</p>")
+    parts.append(f"<p>{html.escape(check.verdict)}</p>")
     return "".join(parts)
+
+
+def _kept_share(analysis) -> float:
+    """The kept values' share of the readings the scan fitted (below 1 with censored readings in the fit)."""
+    values, counts = analysis.fit_input()
+    kept = float(values.size if counts is None else np.sum(counts))
+    return min(1.0, kept / analysis.scan.n) if analysis.scan.n > 0 else 1.0
 
 
 def render_report(analysis, *, title: str | None = None) -> str:

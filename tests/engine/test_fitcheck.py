@@ -122,3 +122,51 @@ def test_bad_input_raises_input_error():
     x = _sample(10, 100)
     with pytest.raises(clusterdesk.InputError):
         fit_check_bootstrap(x, clusterdesk.fit(x, 1), replicates=5)
+
+
+def test_censored_readings_count_in_the_data_distribution():
+    # A sample from the true mixture with the readings below L known only to lie
+    # below it. Reference: sup |F_n - F| taken over a dense set of points at or
+    # above L, with F_n counting every reading of the full sample (scipy.stats
+    # .kstest's empirical function, computed here directly) - where the
+    # censored readings are known to lie. Leaving them out of F_n (the kept
+    # values alone against the mixture of all) shows a misfit that is not there.
+    full = np.sort(_sample(12, 800))
+    limit = 9.5
+    kept = full[full >= limit]
+    below = full.size - kept.size
+    check = goodness_of_fit(TRUTH, kept, censored=([limit], [-1], [below]))
+    dense = np.linspace(limit, full.max() + 3, 400_001)
+    after = np.searchsorted(full, dense, side="right") / full.size
+    before = np.searchsorted(full, dense, side="left") / full.size
+    cdf = TRUTH.cdf(dense)
+    at_points = np.maximum(np.abs(after - cdf), np.abs(before - cdf)).max()
+    assert check.ks_distance == pytest.approx(at_points, abs=2e-4)  # the grid misses jumps by < 2e-4
+    assert check.n == full.size and check.censored == below
+    assert "readings beyond a limit count" in check.verdict
+    ignoring = goodness_of_fit(TRUTH, kept)
+    assert ignoring.ks_distance > 3 * check.ks_distance
+    # Plotting positions count the censored readings below every kept value.
+    np.testing.assert_allclose(check.plotting_positions[0], (below + 0.5) / full.size)
+
+
+def test_no_distance_where_a_censored_reading_could_lie_either_side():
+    # Readings above 12 (a reporting limit) and kept values above it too: those
+    # values have a censored reading of unknown side, so only values at or
+    # below 12 enter the distance; with the limit below every value, none does.
+    x = _sample(13, 300)
+    check = goodness_of_fit(TRUTH, x[x <= 13.0], censored=([12.0], [1], [5]))
+    assert check.ks_location <= 12.0
+    nothing = goodness_of_fit(TRUTH, x, censored=([x.min() - 1.0], [1], [5]))
+    assert np.isnan(nothing.ks_distance) and nothing.verdict.startswith("No fit check")
+
+
+def test_rounded_location_is_that_of_the_verdict_distance():
+    x = np.round(_sample(8) * 2) / 2
+    check = goodness_of_fit(TRUTH, x)
+    cells = np.unique(x)
+    after = np.searchsorted(np.sort(x), cells, side="right") / x.size
+    before = np.searchsorted(np.sort(x), cells, side="left") / x.size
+    gaps = np.maximum(np.abs(after - TRUTH.cdf(cells + 0.25)), np.abs(before - TRUTH.cdf(cells - 0.25)))
+    assert check.ks_location == cells[gaps.argmax()]
+    assert check.verdict_distance == pytest.approx(gaps.max(), abs=1e-12)

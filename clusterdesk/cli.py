@@ -19,6 +19,7 @@ import numpy as np
 
 from ._version import __version__
 from .api import scan
+from .display import shown
 from .errors import InputError
 
 __all__ = ["main"]
@@ -82,10 +83,12 @@ def format_components(model) -> str:
     """The components of one model as a plain-text table, with cut points."""
     m = model.mixture
     cuts = m.cut_points()
+    detail = float(m.sds.min()) / 10  # a tenth of the narrowest component's sd still shows
     lines = [f"{'component':>9} {'weight':>8} {'mean':>12} {'sd':>12} {'cut to next':>12}"]
     for j in range(m.k):
-        cut = _number(cuts[j], "12.4g") if j < m.k - 1 else " " * 12
-        lines.append(f"{j + 1:>9} {m.weights[j]:>8.4f} {m.means[j]:>12.5g} {m.sds[j]:>12.5g} {cut}")
+        cut = f"{shown(cuts[j], detail):>12}" if j < m.k - 1 else " " * 12
+        lines.append(f"{j + 1:>9} {m.weights[j]:>8.4f} {shown(m.means[j], detail):>12} "
+                     f"{shown(m.sds[j], detail):>12} {cut}")
     return "\n".join(lines)
 
 
@@ -268,8 +271,10 @@ def format_intervals(boot) -> str:
     """Bootstrap intervals as a plain-text table."""
     lines = [f"\n{boot.describe()}",
              f"{'quantity':<16} {'estimate':>12} {'lower':>12} {'upper':>12} {'std. error':>12}"]
+    floor = float(boot.reference.sds.min()) / 10
     for name, est, lo, hi, se in boot.table_rows():
-        lines.append(f"{name:<16} {_number(est, '>12.5g')} {_number(lo, '>12.5g')} {_number(hi, '>12.5g')} "
+        detail = min(se / 10, floor) if math.isfinite(se) and se > 0 else floor
+        lines.append(f"{name:<16} {shown(est, detail):>12} {shown(lo, detail):>12} {shown(hi, detail):>12} "
                      f"{_number(se, '>12.4g')}")
     lines += [f"note: {n}" for n in boot.notes]
     return "\n".join(lines)

@@ -15,6 +15,7 @@ from PySide6.QtCore import Qt, Signal
 from PySide6.QtWidgets import (QComboBox, QHBoxLayout, QLabel, QPushButton, QSpinBox,
                                QVBoxLayout, QWidget)
 
+from ..display import shown
 from ..engine.treatment import interval_offsets
 from ..io.cleaning import to_original_scale
 from .histogram import BIN_RULES, bin_edges, weighted_histogram
@@ -259,7 +260,7 @@ class DistributionView(PlotView):
         for cut in shown:
             line = pg.InfiniteLine(pos=cut, angle=90,
                                    pen=pg.mkPen(_CUT_COLOUR, width=1.5, style=Qt.PenStyle.DashLine),
-                                   label=f"{cut:.4g}", labelOpts={"position": 0.93, "color": _CUT_COLOUR,
+                                   label=shown(cut, float(mix.sds.min()) / 10), labelOpts={"position": 0.93, "color": _CUT_COLOUR,
                                                                   "fill": (255, 255, 255, 200)})
             self.plot.addItem(line)
             self._cut_lines.append(line)

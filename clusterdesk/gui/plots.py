@@ -15,7 +15,7 @@ from PySide6.QtCore import Qt, Signal
 from PySide6.QtWidgets import (QComboBox, QHBoxLayout, QLabel, QPushButton, QSpinBox,
                                QVBoxLayout, QWidget)
 
-from ..display import shown
+from ..display import shown as number_text
 from ..engine.treatment import interval_offsets
 from ..io.cleaning import to_original_scale
 from .histogram import BIN_RULES, bin_edges, weighted_histogram
@@ -257,11 +257,12 @@ class DistributionView(PlotView):
         self.curves["mixture"] = self._mixture
         self.cuts = mix.cut_points()
         shown = [float(c) for c in self.cuts if np.isfinite(c)]
+        detail = float(mix.sds.min()) / 10  # labels resolve a tenth of the narrowest component
         for cut in shown:
             line = pg.InfiniteLine(pos=cut, angle=90,
                                    pen=pg.mkPen(_CUT_COLOUR, width=1.5, style=Qt.PenStyle.DashLine),
-                                   label=shown(cut, float(mix.sds.min()) / 10), labelOpts={"position": 0.93, "color": _CUT_COLOUR,
-                                                                  "fill": (255, 255, 255, 200)})
+                                   label=number_text(cut, detail),
+                                   labelOpts={"position": 0.93, "color": _CUT_COLOUR, "fill": (255, 255, 255, 200)})
             self.plot.addItem(line)
             self._cut_lines.append(line)
         self._update_legend(k, bool(shown), n)

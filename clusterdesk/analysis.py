@@ -21,10 +21,11 @@ from .engine.bootstrap import bootstrap_model
 from .engine.fitcheck import goodness_of_fit
 from .engine.fitting import FittedModel
 from .engine.scan import ScanResult, scan_models
-from .engine.treatment import interval_offsets, resolve_treatment
+from .engine.treatment import interval_offsets, resolve_treatment, with_censored
 from .errors import InputError
 from .io import Measurements, read_measurements
 from .io import reasons as R
+from .io.cleaning import censored_rows
 from .analysis_file import (ANALYSIS_SUFFIX, FORMAT_VERSION, OpenedAnalysis, SourceChangedError,
                             analysis_to_dict, open_analysis, save_analysis)
 
@@ -195,35 +196,13 @@ class Analysis:
         limits, ends, limit_counts = self._censored_rows()
         if limits.size == 0 or (given["resolution"] is None and given["bounds"] is None):
             return {"values": values, "counts": counts, **given}
-        lower, upper = _interval_ends(values, given)
-        below = ends < 0
-        kept_counts = np.ones(values.size) if counts is None else counts
-        return {"values": np.concatenate([values, limits]),
-                "counts": np.concatenate([kept_counts, limit_counts]),
-                "resolution": None, "value_at": given["value_at"],
-                "bounds": (np.concatenate([lower, np.where(below, -np.inf, limits)]),
-                           np.concatenate([upper, np.where(below, limits, np.inf)]))}
+        return {**with_censored(values, counts, _interval_ends(values, given), limits, ends, limit_counts),
+                "resolution": None, "value_at": given["value_at"]}
 
     def _censored_rows(self):
         """Limits (analysis scale), side (-1 below, +1 above) and counts of detection-limit rows."""
         m = self._need_measurements()
-        rows = m.rows
-        # Only the (usually few) limit rows are looked at: arrays over every row cost ~0.3 s at 10^7.
-        at = np.flatnonzero((rows.reason == R.BELOW_LIMIT) | (rows.reason == R.ABOVE_LIMIT))
-        side = np.where(rows.reason[at] == R.BELOW_LIMIT, -1, 1)
-        limits = rows.value[at]
-        usable = np.isfinite(limits)
-        if m.scale != "linear":
-            usable &= limits > 0
-        if rows.count is not None:
-            usable &= np.isfinite(rows.count[at]) & (rows.count[at] > 0)
-        limits = limits[usable]
-        if m.scale == "ln":
-            limits = np.log(limits)
-        elif m.scale == "log10":
-            limits = np.log10(limits)
-        counts = np.ones(limits.size) if rows.count is None else rows.count[at][usable]
-        return limits, side[usable], counts
+        return censored_rows(m.rows, m.scale)
 
     def compute_scan(self, settings: ScanSettings | None = None, progress=None, cancel=None) -> ScanResult:
         """Run the scan and return it, without changing the analysis."""

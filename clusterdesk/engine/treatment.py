@@ -36,7 +36,7 @@ from .grouped import prepare_intervals
 from .validation import Sample, prepare_sample, weighted_mean_sd
 
 __all__ = ["Treatment", "TREATMENTS", "VALUE_POSITIONS", "COARSE_FRACTION", "resolve_treatment",
-           "check_value_at", "interval_offsets"]
+           "check_value_at", "interval_offsets", "with_censored"]
 
 TREATMENTS = ("auto", "exact", "intervals")
 #: Where a recorded value sits in its interval, and how the outputs say it.
@@ -116,6 +116,32 @@ def interval_offsets(value_at: str, step: float) -> tuple[float, float]:
     """The interval of a value ``x`` recorded to ``step`` is ``[x + lo, x + hi)``; returns ``(lo, hi)``."""
     return {"middle": (-0.5 * step, 0.5 * step), "lower": (0.0, step),
             "upper": (-step, 0.0)}[check_value_at(value_at)]
+
+
+def with_censored(values, counts, bounds, limits, sides, limit_counts) -> dict:
+    """Values known to intervals, joined by readings beyond a limit as open intervals.
+
+    Parameters
+    ----------
+    values, counts : ndarray, shape (n,); counts may be None (one each)
+    bounds : tuple (lower, upper) of ndarray, each shape (n,)
+        The values' intervals.
+    limits, sides, limit_counts : ndarray, shape (m,)
+        Censored readings: side -1 lies below its limit ``(-inf, limit)``,
+        +1 above it ``(limit, inf)``.
+
+    Returns
+    -------
+    dict
+        ``values``, ``counts`` and ``bounds`` for :func:`resolve_treatment`.
+    """
+    lower, upper = bounds
+    below = np.asarray(sides) < 0
+    kept_counts = np.ones(np.size(values)) if counts is None else counts
+    return {"values": np.concatenate([values, limits]),
+            "counts": np.concatenate([kept_counts, limit_counts]),
+            "bounds": (np.concatenate([lower, np.where(below, -np.inf, limits)]),
+                       np.concatenate([upper, np.where(below, limits, np.inf)]))}
 
 
 def resolve_treatment(values, counts=None, *, treatment="auto", resolution=None,

@@ -197,6 +197,43 @@ class CleanResult:
     summary: ReadSummary
 
 
+def censored_rows(rows: RowFates, scale: str = "linear"):
+    """The rows at a detection or reporting limit, as censored readings.
+
+    Only the (usually few) limit rows are looked at: arrays over every row
+    cost some 0.3 s at 10^7 rows.
+
+    Parameters
+    ----------
+    rows : RowFates
+    scale : {"linear", "ln", "log10"}, default "linear"
+        The analysis scale the limits are given on.
+
+    Returns
+    -------
+    limits : ndarray, shape (m,)
+        On the analysis scale (limits at or below zero are dropped on a log scale).
+    sides : ndarray of int, shape (m,)
+        -1 below a detection limit, +1 above a reporting limit.
+    counts : ndarray, shape (m,)
+    """
+    at = np.flatnonzero((rows.reason == R.BELOW_LIMIT) | (rows.reason == R.ABOVE_LIMIT))
+    sides = np.where(rows.reason[at] == R.BELOW_LIMIT, -1, 1)
+    limits = rows.value[at]
+    usable = np.isfinite(limits)
+    if scale != "linear":
+        usable &= limits > 0
+    if rows.count is not None:
+        usable &= np.isfinite(rows.count[at]) & (rows.count[at] > 0)
+    limits = limits[usable]
+    if scale == "ln":
+        limits = np.log(limits)
+    elif scale == "log10":
+        limits = np.log10(limits)
+    counts = np.ones(limits.size) if rows.count is None else rows.count[at][usable]
+    return limits, sides[usable], counts
+
+
 def to_original_scale(values, scale: str):
     """Values on the analysis scale back on the original scale.
 

@@ -27,7 +27,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError
-from ..io.cleaning import clean_column, detect_resolution
+from ..io.cleaning import censored_rows, clean_column, detect_resolution
 from ..io.decoding import is_zip
 from ..io.reading import _load, _read_table
 from ..io.table import summarize
@@ -116,6 +116,9 @@ class ColumnValues:
         Step of the value grid (e.g. 0.1), None for continuous values.
     notes : tuple of str
         What the reader noted about the file or sheet.
+    censored : tuple (limits, sides, counts) of ndarray
+        Rows at a detection (side -1) or reporting (+1) limit
+        (:func:`clusterdesk.io.cleaning.censored_rows`); empty arrays when none.
     """
 
     values: np.ndarray
@@ -124,6 +127,7 @@ class ColumnValues:
     excluded: dict
     resolution: float | None
     notes: tuple = ()
+    censored: tuple = (np.empty(0), np.empty(0, dtype=int), np.empty(0))
 
 
 @dataclass
@@ -280,4 +284,5 @@ def column_values(path: str, sha256: str, sheet: str | None, position: int) -> C
         raise InputError(f"No value of column {summary.name!r} was kept ({result.summary}).")
     return ColumnValues(values=result.values, rows_read=result.summary.rows_read,
                         rows_kept=result.summary.rows_kept, excluded=dict(result.summary.excluded),
-                        resolution=detect_resolution(result.values), notes=tuple(table.info.notes))
+                        resolution=detect_resolution(result.values), notes=tuple(table.info.notes),
+                        censored=censored_rows(result.rows))

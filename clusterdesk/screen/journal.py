@@ -34,12 +34,15 @@ JOURNAL_NAME = "screen-journal.jsonl"
 JOURNAL_FORMAT = "clusterdesk-screen-journal"
 _VERSION = 1
 _TUPLE_FIELDS = ("weights", "means", "sds", "notes", "histogram")
+#: Raised whenever a column's row could change with the same settings and version (2: censored
+#: readings in the fit, scan notes kept), so a resumed run does not reuse rows of the old rule.
+_COLUMN_TASK = 2
 
 
 def settings_fingerprint(settings) -> str:
     """Text that changes whenever a column's row could change: settings, treatment, software version."""
     return json.dumps({"settings": asdict(settings), "treatment": TREATMENT_EXACT,
-                       "software": __version__}, sort_keys=True)
+                       "software": __version__, "column_task": _COLUMN_TASK}, sort_keys=True)
 
 
 def row_to_dict(row: ScreenRow) -> dict:

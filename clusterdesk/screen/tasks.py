@@ -22,6 +22,7 @@ import numpy as np
 from ..analysis import ScanSettings
 from ..api import scan
 from ..engine.criteria import evidence_wording
+from ..engine.treatment import with_censored
 from ..engine.validation import max_components, prepare_sample
 from ..errors import Cancelled, InputError
 from . import filecache
@@ -257,12 +258,26 @@ def _fit(data: filecache.ColumnValues, task: ColumnTask, settings: ScanSettings,
     if kmax < settings.kmax:
         notes.append(f"kmax lowered from {settings.kmax} to {kmax}: the column has too few "
                      "distinct values for more components.")
+    given = {"values": data.values}
+    limits, sides, limit_counts = data.censored
+    if limits.size and data.resolution is not None:
+        # As the analysis does: readings at a limit enter as censored intervals (the values as
+        # intervals of their resolution), so a screened column gets the fit its analysis gets.
+        step = data.resolution
+        given = with_censored(data.values, None, (data.values - step / 2, data.values + step / 2),
+                              limits, sides, limit_counts)
+        notes.append(f"{limit_counts.sum():,.0f} readings at a detection or reporting limit are in the fit "
+                     "as censored readings.")
+    elif limits.size:
+        notes.append(f"{limit_counts.sum():,.0f} readings at a detection or reporting limit are left out: "
+                     "no recording resolution is known to treat the values as intervals.")
     # One process per column: the screening's workers are the parallel unit.
-    result = scan(data.values, kmin=settings.kmin, kmax=kmax, widths=settings.widths,
+    result = scan(**given, kmin=settings.kmin, kmax=kmax, widths=settings.widths,
                   restarts=settings.restarts, seed=task.seed, cancel=cancel, workers=1)
     best = result.best
     mix = best.mixture
     second = _runner_up(result)
+    notes.extend(result.notes)  # on the scan as a whole, e.g. values far outside the rest
     notes.extend(best.notes)
     if result.ranking[0].collapsed:
         notes.append("Every model collapsed (a component on a single value); the fit is not credible.")

@@ -139,3 +139,32 @@ def test_column_seed_is_stable_and_tells_columns_apart():
     assert base not in variants and len(variants) == 6
     assert all(0 <= s < 2 ** 63 for s in variants | {base})
     assert math.isfinite(float(base))
+
+
+def test_a_column_with_censored_readings_gets_the_fit_of_its_analysis(tmp_path):
+    # Readings written "<0.1" enter the fit as censored, as in the analysis (the
+    # reference: clusterdesk.analysis.Analysis on the same file), and the scan's
+    # note on a far-out value reaches the row. Synthetic, seeded.
+    import numpy as np
+
+    from clusterdesk.analysis import Analysis, DataChoice, ScanSettings as Settings
+    from clusterdesk.screen import screen
+
+    rng = np.random.default_rng(77)
+    values = np.round(np.concatenate([rng.normal(0.3, 0.1, 300), rng.normal(0.9, 0.15, 200)]), 2)
+    text = ["<0.1" if v < 0.1 else f"{v:.2f}" for v in values]
+    bores = [f"{v:.6f}" for v in rng.normal(50.0, 0.02, values.size - 1)] + ["99999"]
+    (tmp_path / "assay.csv").write_text("level,bore\n" + "\n".join(f"{a},{b}" for a, b in zip(text, bores))
+                                        + "\n", encoding="utf-8")
+    settings = Settings(kmin=1, kmax=3, widths="separate", restarts=3, seed=0)
+    rows = {r.column: r for r in screen([tmp_path / "assay.csv"], settings=settings, workers=1).rows}
+    row = rows["level"]
+    analysis = Analysis.from_file(tmp_path / "assay.csv", DataChoice(column="level"),
+                                  Settings(kmin=1, kmax=3, widths="separate", restarts=3, seed=row.seed))
+    analysis.run_scan()
+    censored = int(np.sum(values < 0.1))
+    assert censored > 0 and analysis.scan.treatment.censored == censored
+    assert row.best_k == analysis.scan.best.k
+    np.testing.assert_allclose(row.means, analysis.scan.best.mixture.means, rtol=1e-6)
+    assert any(f"{censored} readings at a detection or reporting limit are in the fit" in n for n in row.notes)
+    assert any("far outside the rest" in n and "99999" in n for n in rows["bore"].notes)

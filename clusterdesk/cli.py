@@ -20,6 +20,9 @@ import numpy as np
 from ._version import __version__
 from .api import scan
 from .display import shown
+from .engine.bootstrap import CUT_POINT_CAUTION
+from .io.cleaning import to_original_scale
+from .screen.tasks import describe_model
 from .errors import InputError
 
 __all__ = ["main"]
@@ -79,16 +82,33 @@ def _number(value: float, spec: str) -> str:
     return format(value, spec)
 
 
-def format_components(model) -> str:
-    """The components of one model as a plain-text table, with cut points."""
+def format_components(model, scale: str = "linear") -> str:
+    """The components of one model as a plain-text table, with cut points.
+
+    On a log scale (``scale`` "ln" or "log10") the columns are on that scale
+    and three more give the original scale: the geometric mean, the
+    multiplicative spread (the back-transformed sd) and the cut point.
+    """
     m = model.mixture
     cuts = m.cut_points()
     detail = float(m.sds.min()) / 10  # a tenth of the narrowest component's sd still shows
-    lines = [f"{'component':>9} {'weight':>8} {'mean':>12} {'sd':>12} {'cut to next':>12}"]
+    on = "" if scale == "linear" else f" ({scale})"
+    header = f"{'component':>9} {'weight':>8} {'mean' + on:>12} {'sd' + on:>12} {'cut to next':>12}"
+    if scale != "linear":
+        header += f" {'geom. mean':>12} {'mult. spread':>12} {'cut, original':>14}"
+    lines = [header]
     for j in range(m.k):
         cut = f"{shown(cuts[j], detail):>12}" if j < m.k - 1 else " " * 12
-        lines.append(f"{j + 1:>9} {m.weights[j]:>8.4f} {shown(m.means[j], detail):>12} "
-                     f"{shown(m.sds[j], detail):>12} {cut}")
+        line = (f"{j + 1:>9} {m.weights[j]:>8.4f} {shown(m.means[j], detail):>12} "
+                f"{shown(m.sds[j], detail):>12} {cut}")
+        if scale != "linear":
+            mean, spread = (float(to_original_scale(v, scale)) for v in (m.means[j], m.sds[j]))
+            cut_back = float(to_original_scale(cuts[j], scale)) if j < m.k - 1 else math.nan
+            # Back on the original scale the detail is relative: the same share of each number.
+            relative = abs(mean) * (math.expm1(detail * (math.log(10) if scale == "log10" else 1.0)))
+            line += f" {shown(mean, relative):>12} {shown(spread, 1e-4 * spread):>12}"
+            line += f" {shown(cut_back, relative):>14}" if j < m.k - 1 else ""
+        lines.append(line)
     return "\n".join(lines)
 
 
@@ -234,15 +254,19 @@ def run_fit(args, out) -> int:
         return 0
     m = analysis.measurements
     print(f"{m.source}: column {m.column.name!r}; {m.summary}", file=out)
+    censored = analysis.scan.treatment.censored
+    if censored:  # excluded as values, yet in the likelihood: say so where the exclusion is printed
+        print(f"the {censored:,} readings at a detection or reporting limit are in the fit as censored "
+              "readings (known only to lie beyond their limit)", file=out)
     if m.resolution:
         print(f"values recorded to a resolution of {m.resolution:g}", file=out)
     print(f"fitted on the {m.scale} scale\n", file=out)
     print(format_ranking(analysis.scan), file=out)
     chosen = analysis.chosen
     label = "best" if analysis.choice is None else "chosen"
-    print(f"\n{label.capitalize()} model: {chosen.k} components, {chosen.widths} widths "
+    print(f"\n{label.capitalize()} model: {describe_model(chosen.k, chosen.widths)} "
           f"(BIC evidence of the best over the runner-up: {analysis.scan.evidence or 'n/a'})", file=out)
-    print(format_components(chosen), file=out)
+    print(format_components(chosen, analysis.measurements.scale), file=out)
     for note in analysis.fit_notes:
         print(f"note: {note}", file=out)
     if analysis.intervals is not None:
@@ -276,7 +300,8 @@ def format_intervals(boot) -> str:
         detail = min(se / 10, floor) if math.isfinite(se) and se > 0 else floor
         lines.append(f"{name:<16} {shown(est, detail):>12} {shown(lo, detail):>12} {shown(hi, detail):>12} "
                      f"{_number(se, '>12.4g')}")
-    lines += [f"note: {n}" for n in boot.notes]
+    # The caution stands once, at the end of the output.
+    lines += [f"note: {n}" for n in boot.notes if n != CUT_POINT_CAUTION]
     return "\n".join(lines)
 
 

@@ -240,3 +240,24 @@ def test_a_missing_cut_point_prints_as_none_not_nan():
     text = format_components(SimpleNamespace(mixture=mixture))
     first = text.splitlines()[1].split()
     assert first[0] == "1" and first[-1] == "none" and "nan" not in text
+
+
+def test_log_scale_components_are_also_printed_back_on_the_original_scale():
+    # Back-transform of a log-normal component: geometric mean exp(mu) (10**mu on
+    # log10), multiplicative spread exp(sigma); common practice, no source.
+    from types import SimpleNamespace
+
+    from clusterdesk.cli import format_components
+    from clusterdesk.engine.mixture import Mixture
+
+    mixture = Mixture(np.array([0.6, 0.4]), np.array([1.2757, 2.4350]), np.array([0.3935, 0.2864]))
+    text = format_components(SimpleNamespace(mixture=mixture), "ln")
+    header, first, second = text.splitlines()
+    assert "mean (ln)" in header and "geom. mean" in header and "cut, original" in header
+    cells = first.split()
+    assert float(cells[5]) == pytest.approx(np.exp(1.2757), rel=1e-3)
+    assert float(cells[6]) == pytest.approx(np.exp(0.3935), rel=1e-3)
+    assert float(cells[7]) == pytest.approx(np.exp(mixture.cut_points()[0]), rel=1e-3)
+    assert float(second.split()[4]) == pytest.approx(np.exp(2.4350), rel=1e-3)
+    ten = format_components(SimpleNamespace(mixture=mixture), "log10").splitlines()[1].split()
+    assert float(ten[5]) == pytest.approx(10 ** 1.2757, rel=1e-3)

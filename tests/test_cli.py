@@ -172,7 +172,7 @@ def test_fit_names_a_wild_value_and_a_range_limit_clears_it(tmp_path, capsys):
     source.write_text("length\n" + "\n".join(f"{v:.3f}" for v in values) + "\n", encoding="utf-8")
     assert main(["fit", str(source), "--kmax", "3", "--widths", "separate"]) == 0
     out = capsys.readouterr().out
-    assert "note: 1 value lies far outside the rest of the sample" in out
+    assert "note: 1 distinct value lies far outside the rest of the sample" in out
     assert "1000000" in out and "range limit" in out
     assert main(["fit", str(source), "--kmax", "3", "--widths", "separate", "--high", "1000"]) == 0
     out = capsys.readouterr().out

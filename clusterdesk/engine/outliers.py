@@ -100,7 +100,7 @@ def outlier_note(suspects, fitted_on=None) -> str:
     more = f" and {len(suspects) - _SHOWN} more" if len(suspects) > _SHOWN else ""
     if fitted_on is not None:
         more += f" (as recorded; the models are fitted on the {fitted_on} scale)"
-    which = "value lies" if len(suspects) == 1 else "values lie"
+    which = "distinct value lies" if len(suspects) == 1 else "distinct values lie"  # a value may fill many rows
     return (f"{len(suspects)} {which} far outside the rest of the sample (beyond Tukey's "
             f"far-out fences, 3 interquartile ranges past the quartiles): {shown}{more}. "
             "A normal component cannot describe such a value on its own, so the models that "

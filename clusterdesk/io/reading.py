@@ -170,7 +170,10 @@ def _load(source, text) -> _Source:
     path = pathlib.Path(source)
     where = repr(path.name or str(path))
     if not path.exists():
-        raise InputError(f"There is no file at {str(path)!r}; check the path (to read pasted text, pass text=...).")
+        # A string that reads as data (a number, or fields) was probably meant as text to read.
+        looks_like_data = any(ch in str(source) for ch in ",;\t ") or _is_number(str(source))
+        hint = " (text to read goes in text=..., not in the file argument)" if looks_like_data else ""
+        raise InputError(f"There is no file at {str(path)!r}; check the folder and the file name{hint}.")
     if path.is_dir():
         raise InputError(f"{str(path)!r} is a folder, not a file; choose a CSV, text or XLSX file inside it.")
     if not path.is_file():  # a pipe, socket or device: reading it could wait for ever
@@ -384,10 +387,10 @@ def read_measurements(
         digest = _Digest(src)
         table = _read_table(src, sheet=sheet, delimiter=delimiter, header=header, parser=parser)
     summaries = summarize(table)
-    chosen = choose_column(summaries, column, src.where, "value")
-    count_column = None
-    if counts is not None:
-        count_column = choose_column(summaries, counts, src.where, "count")
+    count_column = None if counts is None else choose_column(summaries, counts, src.where, "count")
+    chosen = choose_column(summaries, column, src.where, "value",
+                           passing_over=None if count_column is None else count_column.index)
+    if count_column is not None:
         if count_column.index == chosen.index:
             raise InputError(
                 f"The count column and the value column are the same ({chosen.name!r}); choose two different columns."
@@ -455,3 +458,11 @@ def read_measurements(
         source=src.label,
         sha256=sha256,
     )
+
+
+def _is_number(text: str) -> bool:
+    try:
+        float(text.replace(",", "."))
+    except ValueError:
+        return False
+    return True

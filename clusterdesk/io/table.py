@@ -266,7 +266,8 @@ def _names_list(summaries: Sequence[ColumnSummary]) -> str:
     return ", ".join(repr(s.name) for s in summaries)
 
 
-def choose_column(summaries: Sequence[ColumnSummary], spec, where: str, role: str = "value") -> ColumnSummary:
+def choose_column(summaries: Sequence[ColumnSummary], spec, where: str, role: str = "value",
+                  passing_over: int | None = None) -> ColumnSummary:
     """Pick a column by name, by 0-based index, or (``spec=None``) by default.
 
     The default is the first mostly-numeric column, passing over a running
@@ -282,6 +283,10 @@ def choose_column(summaries: Sequence[ColumnSummary], spec, where: str, role: st
         The source's name, for messages.
     role : str, default "value"
         ``"value"`` or ``"count"``, for messages.
+    passing_over : int, optional
+        Position of a column the default may not pick (the count column of a
+        value/count table, so that a tally whose classes are 1, 2, 3, ... takes
+        its class column even though it looks like a row number).
 
     Returns
     -------
@@ -293,7 +298,7 @@ def choose_column(summaries: Sequence[ColumnSummary], spec, where: str, role: st
         Unknown name, index out of range, or (default) no numeric column.
     """
     if spec is None:
-        numeric = [s for s in summaries if s.mostly_numeric]
+        numeric = [s for s in summaries if s.mostly_numeric and s.index != passing_over]
         if not numeric:
             shown = "; ".join(f"{s.name!r} (first values: {', '.join(s.first_values) or 'none'})" for s in summaries[:6])
             raise InputError(

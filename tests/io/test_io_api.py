@@ -60,6 +60,16 @@ def test_counts_column_and_summary():
     assert m.summary.excluded == {"not a number": 1}
 
 
+def test_a_tally_with_classes_1_2_3_takes_its_class_column_by_default():
+    # Classes numbered 1, 2, 3, ... look like a running row number, which the
+    # default passes over; with a count column given, the other column is the values.
+    m = read_measurements(text="score,n\n1,4\n2,9\n3,12\n4,7\n5,2\n", counts="n")
+    assert m.column.name == "score" and m.count_column.name == "n"
+    assert list(m.values) == [1, 2, 3, 4, 5] and list(m.counts) == [4, 9, 12, 7, 2]
+    with pytest.raises(InputError, match="the same"):
+        read_measurements(text="score,n\n1,4\n2,9\n", column="n", counts="n")
+
+
 def test_format_report():
     m = read_measurements(text="Gauge: 7\n\nd;n\n1,5;2\n2,25;1\n")
     f = m.format
@@ -105,6 +115,8 @@ def test_table_pasted_from_a_spreadsheet():
 def test_single_line_str_is_a_path():
     with pytest.raises(InputError, match="no file at '12.5'.*text="):
         read_measurements("12.5")
+    with pytest.raises(InputError, match=r"no file at 'nofile.csv'; check the folder and the file name\.$"):
+        read_measurements("nofile.csv")  # a file name gets no hint about text
 
 
 def test_import_loads_no_qt():

@@ -108,7 +108,7 @@ def test_row_fates_made_on_first_use_equal_the_stored_ones():
         ({"low": "abc"}, "not a number"),
         ({"high": float("nan")}, "not finite"),
         ({"low": 1000}, "No value of column"),
-        ({"counts": "x"}, "same"),
+        ({"column": "x", "counts": "x"}, "same"),
     ],
 )
 def test_bad_settings_are_input_errors(kwargs, match):

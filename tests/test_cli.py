@@ -91,6 +91,8 @@ def test_fit_writes_tables_with_every_input_row(tmp_path, capsys):
     assert len(components) == summary["chosen"]["components"]
     assert sum(float(r["weight"]) for r in components) == pytest.approx(1.0)
     assert sum(float(r["count_assigned"]) for r in components) == summary["cleaning"]["rows_kept"]
+    assert all(r["count_assigned"].isdigit() for r in components)  # whole rows, written as whole numbers
+    assert {r["likelihood"] for r in components} == {summary["treatment"]["used"]}  # the file stands alone
     assert summary["software"]["version"] == clusterdesk.__version__
     assert summary["settings"]["seed"] == 0
     # The numbers written are the engine's for the same values and settings.
@@ -147,6 +149,7 @@ def test_fit_with_intervals_report_and_lr_test(tmp_path, capsys):
         assert lower <= float(row["mean"]) <= upper
         assert [lower, upper] == summary["intervals"]["mean"][j]  # CSV re-reads exactly
         assert 0.0 <= float(row["expected_misclassification"]) <= 1.0
+        assert row["interval_level"] == "0.95" and row["interval_method"] == "bootstrap, resampling the values"
 
 
 def test_screen_subcommand_summarises_every_column(tmp_path, capsys):

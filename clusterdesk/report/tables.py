@@ -81,20 +81,23 @@ def components_table(analysis, *, classification=None) -> Table:
     summary = classification_of_values(analysis) if classification is None else classification
     cuts = np.append(mix.cut_points(), np.nan)
     boot = analysis.intervals
-    header = ["component", "scale", "weight", "mean", "sd", "count_assigned",
+    # Each row says which likelihood and which intervals it holds, so the file stands on its own.
+    header = ["component", "scale", "likelihood", "weight", "mean", "sd", "count_assigned",
               "share_confident", "expected_misclassification", "cut_to_next"]
     if boot is not None:
         header += [f"{q}_{end}" for q in ("weight", "mean", "sd", "cut_to_next")
                    for end in ("lower", "upper", "se")]
+        header += ["interval_level", "interval_method"]
     if scale != "linear":
         header += ["geometric_mean", "multiplicative_spread", "cut_to_next_original_scale"]
     rows = []
     for j in range(mix.k):
-        row = [j + 1, scale, mix.weights[j], mix.means[j], mix.sds[j],
-               float(summary.assigned_counts[j]), summary.confident_share_by_component[j],
+        assigned = float(summary.assigned_counts[j])
+        row = [j + 1, scale, model.likelihood, mix.weights[j], mix.means[j], mix.sds[j],
+               int(assigned) if assigned.is_integer() else assigned, summary.confident_share_by_component[j],
                float(summary.misclassification[j]), cuts[j]]
         if boot is not None:
-            row += _interval_cells(boot, j)
+            row += _interval_cells(boot, j) + [boot.level, "bootstrap, " + boot.describe().split(", ")[-1]]
         if scale != "linear":
             row += [float(to_original_scale(v, scale)) for v in (mix.means[j], mix.sds[j], cuts[j])]
         rows.append(row)

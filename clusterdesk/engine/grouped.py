@@ -42,9 +42,10 @@ from scipy.special import log_ndtr
 from . import criteria
 from .em import EMSettings, Stats, run_batch
 from .fitting import (FitSettings, FittedModel, _best_index, _count_agreeing, _robust_spread,
-                      degenerate_fits, model_with_criteria)
+                      _suspect_values, degenerate_fits, model_with_criteria)
 from .interval_derivatives import IntervalTrialPoints
 from .mixture import Mixture
+from .outliers import outlier_note
 from .recording_cells import recording_cells
 from .starts import make_starts
 from .validation import Sample, weighted_mean_sd
@@ -348,8 +349,10 @@ def fit_intervals(sample: Sample, k: int, widths: str, rng: np.random.Generator,
     degenerate = degenerate_fits(result, data.var_floor, settings)
     best = _best_index(result.loglik, degenerate)
     agreeing = _count_agreeing(result.loglik, best, data.n, settings.agree_tol)
+    # As on the exact path: values beyond the far-out fences that the collapsed components hold.
+    suspects = _suspect_values(data, sample, result, best, settings) if degenerate[best] else ()
     return _finish(data, sample, result, best, k, widths, agreeing, int(result.loglik.size),
-                   collapsed=bool(degenerate[best]))
+                   collapsed=bool(degenerate[best]), suspects=suspects)
 
 
 def histogram_bins(x, c, bins: int, step: float | None = None, width: float | None = None):
@@ -432,7 +435,7 @@ def _screened_starts(data, k, shared, rng, settings, cancel):
     return short.weights[keep], short.means[keep], short.variances[keep]
 
 
-def _finish(data, sample, result, best, k, widths, agreeing, restarts, collapsed):
+def _finish(data, sample, result, best, k, widths, agreeing, restarts, collapsed, suspects=()):
     scale = data.scale
     mixture = Mixture(weights=result.weights[best],
                       means=data.center + scale * result.means[best],
@@ -448,7 +451,9 @@ def _finish(data, sample, result, best, k, widths, agreeing, restarts, collapsed
     if collapsed:
         notes.append("Every restart ended with a component squeezed inside one interval "
                      "(a spurious maximum); this model is not a credible description.")
+    if suspects:
+        notes.append(outlier_note(suspects))
     return model_with_criteria(mixture, k, widths, loglik, data.n, entropy, converged=converged,
                                iterations=int(result.iterations[best]), restarts=restarts,
                                agreeing=agreeing, collapsed=collapsed, notes=notes,
-                               likelihood="intervals")
+                               likelihood="intervals", suspects=suspects)

@@ -96,6 +96,7 @@ class RankingPanel(QGroupBox):
         layout.addWidget(self.leave_out_button, 0, Qt.AlignmentFlag.AlignLeft)
         layout.addWidget(self.view, 1)
         self.view.selectionModel().selectionChanged.connect(self._selection_changed)
+        self.view.fit_columns()  # headings whole before the first fit too
         self._updating = False
 
     def show_analysis(self, analysis) -> None:
@@ -106,6 +107,7 @@ class RankingPanel(QGroupBox):
                                              and bool(analysis.scan.suspect_values))
             if analysis is None or analysis.scan is None:
                 self.model.set_scan(None)
+                self.view.fit_columns()  # the empty table shows whole headings, not cut ones
                 self.summary.setText("Fit models to rank them.")
                 return
             chosen = analysis.chosen

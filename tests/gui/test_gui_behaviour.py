@@ -170,3 +170,18 @@ def test_far_out_values_named_by_the_scan_can_be_left_out_from_the_ranking(qtbot
     fit(qtbot, window, kmax=3, restarts=3, widths="separate")
     assert not button.isVisible()
     assert window.analysis.scan.best.k == 2
+
+
+def test_ranking_headings_are_whole_before_the_first_fit(qtbot, window):
+    # Found in review: 'evidence for the best' and 'restarts agreeing' were cut
+    # off until models had been fitted.
+    from gui_helpers import open_sample
+
+    open_sample(qtbot, window, "lake_net_lengths.csv", DataChoice(column="length_mm"))
+    view = window.ranking.view
+    header = view.horizontalHeader()
+    metrics = header.fontMetrics()
+    model = view.model()
+    for column in range(model.columnCount()):
+        text = str(model.headerData(column, Qt.Orientation.Horizontal))
+        assert header.sectionSize(column) >= metrics.horizontalAdvance(text), text

@@ -24,7 +24,6 @@ from .engine.scan import ScanResult, scan_models
 from .engine.treatment import interval_offsets, resolve_treatment, with_censored
 from .errors import InputError
 from .io import Measurements, read_measurements
-from .io import reasons as R
 from .io.cleaning import censored_rows
 from .analysis_file import (ANALYSIS_SUFFIX, FORMAT_VERSION, OpenedAnalysis, SourceChangedError,
                             analysis_to_dict, open_analysis, save_analysis)

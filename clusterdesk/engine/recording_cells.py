@@ -33,7 +33,7 @@ import numpy as np
 
 from .mixture import Mixture
 
-__all__ = ["RecordingCells", "recording_cells"]
+__all__ = ["RecordingCells", "recording_cells", "cell_probabilities"]
 
 _WHOLE_STEPS_TOL = 1e-6
 
@@ -51,7 +51,7 @@ class RecordingCells:
         Cell ends; ``upper[i] == lower[i + 1]``.
     probabilities : ndarray, shape (m,)
         The mixture's probability of each cell (tails beyond the end cells
-        folded into them); sums to 1.
+        folded into them); sums to 1 up to rounding.
     added : int
         Cells that hold no observed value.
     """
@@ -106,8 +106,8 @@ def recording_cells(values, lower, upper, mixture: Mixture, n: float, max_cells:
     new_values = np.concatenate([x] + [0.5 * (p[:-1] + p[1:]) for p in pieces])
     order = np.argsort(new_lower, kind="stable")
     lo, hi, mid = new_lower[order], new_upper[order], new_values[order]
-    return RecordingCells(values=mid, lower=lo, upper=hi, probabilities=_cell_probabilities(mixture, lo, hi),
-                          added=int(lo.size - a.size))
+    probabilities = cell_probabilities(mixture, np.r_[lo, hi[-1]])  # the cells tile: their ends are edges
+    return RecordingCells(values=mid, lower=lo, upper=hi, probabilities=probabilities, added=int(lo.size - a.size))
 
 
 def _most_common_width(widths) -> float:
@@ -132,11 +132,21 @@ def _cut(start: float, end: float, step: float) -> np.ndarray:
     return np.array([start, end])
 
 
-def _cell_probabilities(mixture: Mixture, lower, upper) -> np.ndarray:
-    """P(lower <= X < upper) under the mixture; the tails beyond the end cells folded into them."""
-    p = np.clip(mixture.cdf(upper) - mixture.cdf(lower), 0.0, None)
-    if np.isfinite(lower[0]):
-        p[0] += float(mixture.cdf(lower[0]))
-    if np.isfinite(upper[-1]):
-        p[-1] += float(mixture.sf(upper[-1]))
-    return p / p.sum()
+def cell_probabilities(mixture: Mixture, edges) -> np.ndarray:
+    """Mixture probability of each cell between ``edges``, the tails beyond the ends folded into the end cells.
+
+    Parameters
+    ----------
+    mixture : Mixture
+    edges : ndarray, shape (m + 1,)
+        Increasing; the ends may be infinite (an open end cell).
+
+    Returns
+    -------
+    ndarray, shape (m,)
+    """
+    cdf = mixture.cdf(edges)
+    p = np.diff(cdf)
+    p[0] += cdf[0]
+    p[-1] += 1.0 - cdf[-1]
+    return np.maximum(p, 0.0)

@@ -62,6 +62,7 @@ from .grouped import INTERVAL_MAX_ITER, interval_e_step_on, interval_plan
 from .mixture import Mixture
 from .newton import newton_polish
 from .parallel import replicate_rng
+from .recording_cells import cell_probabilities
 from .resolution import detect_grid_step
 from .validation import Sample
 
@@ -291,13 +292,13 @@ def _parametric_plan(sample, data, min_sd, settings, common) -> ReplicatePlan:
             points = first + grid_step * np.arange(cells)
             edges = np.concatenate([points - 0.5 * grid_step, [points[-1] + 0.5 * grid_step]])
             return ReplicatePlan(path="grid", support=points,
-                                 probabilities=_cell_probabilities(ref_mix, edges),
+                                 probabilities=cell_probabilities(ref_mix, edges),
                                  var_floor=data.var_floor, grid_step=grid_step, **common)
     if common["n"] <= settings.bin_above:
         return ReplicatePlan(path="simulated values", support=None, probabilities=None,
                              var_floor=data.var_floor, grid_step=grid_step, **common)
     edges = _edges(lo, hi, min_sd, settings)
-    return _binned_plan(edges, _cell_probabilities(ref_mix, edges), data.var_floor, common)
+    return _binned_plan(edges, cell_probabilities(ref_mix, edges), data.var_floor, common)
 
 
 def _distinct(x, c):
@@ -319,15 +320,6 @@ def _binned_plan(edges, weights, var_floor, common):
     probabilities = weights[keep] / weights[keep].sum()
     return ReplicatePlan(path="fine histogram", support=centres[keep], probabilities=probabilities,
                          var_floor=max(var_floor, width * width), grid_step=None, **common)
-
-
-def _cell_probabilities(mixture, edges):
-    """Mixture probability of each cell, the tails beyond the ends folded into the end cells."""
-    cdf = mixture.cdf(edges)
-    p = np.diff(cdf)
-    p[0] += cdf[0]
-    p[-1] += 1.0 - cdf[-1]
-    return np.maximum(p, 0.0)
 
 
 def draw_replicates(plan: ReplicatePlan, indices):

@@ -22,7 +22,7 @@ import numpy as np
 from ..analysis import ScanSettings
 from ..api import scan
 from ..engine.criteria import evidence_wording
-from ..engine.treatment import with_censored
+from ..engine.treatment import interval_offsets, with_censored
 from ..engine.validation import max_components, prepare_sample
 from ..errors import Cancelled, InputError
 from . import filecache
@@ -263,9 +263,8 @@ def _fit(data: filecache.ColumnValues, task: ColumnTask, settings: ScanSettings,
     if limits.size and data.resolution is not None:
         # As the analysis does: readings at a limit enter as censored intervals (the values as
         # intervals of their resolution), so a screened column gets the fit its analysis gets.
-        step = data.resolution
-        given = with_censored(data.values, None, (data.values - step / 2, data.values + step / 2),
-                              limits, sides, limit_counts)
+        lo, hi = interval_offsets("middle", data.resolution)
+        given = with_censored(data.values, None, (data.values + lo, data.values + hi), limits, sides, limit_counts)
         notes.append(f"{limit_counts.sum():,.0f} readings at a detection or reporting limit are in the fit "
                      "as censored readings.")
     elif limits.size:
